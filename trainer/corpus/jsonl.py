@@ -1,0 +1,113 @@
+"""The canonical JSON Lines format: one record per line.
+
+Reading is tolerant of what editors do to text files (a UTF-8 byte-order
+mark, CRLF line ends, blank lines); everything else that is wrong is left to
+:mod:`trainer.corpus.validate`, which reports it with file and line.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import tempfile
+from pathlib import Path
+from typing import Any, Iterable, Iterator
+
+from trainer.corpus.records import Event, Record, RoleSpan
+from trainer.errors import UnreadableInputError
+
+
+def iter_lines(path: Path) -> Iterator[tuple[int, str]]:
+    """Yield ``(line_number, line)`` for each non-blank line of a UTF-8 file.
+
+    Line numbers are 1-based and count blank lines, so they match an editor.
+    """
+    try:
+        handle = open(path, encoding="utf-8-sig", newline=None)
+    except FileNotFoundError:
+        raise UnreadableInputError(f"{path}: no such file", "check the path") from None
+    except IsADirectoryError:
+        raise UnreadableInputError(f"{path}: is a folder, not a file", "name a .jsonl file") from None
+    except OSError as exc:
+        raise UnreadableInputError(f"{path}: cannot open ({exc.strerror})", "check permissions") from None
+    with handle:
+        try:
+            for number, line in enumerate(handle, start=1):
+                line = line.rstrip("\r\n")
+                if line.strip():
+                    yield number, line
+        except UnicodeDecodeError as exc:
+            raise UnreadableInputError(
+                f"{path}: not UTF-8 text (byte {exc.start} of the undecodable chunk)",
+                "re-save the file as UTF-8",
+            ) from None
+
+
+def span_to_json(span: tuple[int, int]) -> list[int]:
+    return [span[0], span[1]]
+
+
+def event_to_dict(event: Event) -> dict[str, Any]:
+    """The JSON object of one event (confidences only when present)."""
+    out: dict[str, Any] = {"trigger": span_to_json(event.trigger)}
+    if event.confidence is not None:
+        out["confidence"] = round(event.confidence, 4)
+    roles = []
+    for role in event.roles:
+        item: dict[str, Any] = {"role": role.role, "span": span_to_json(role.span)}
+        if role.confidence is not None:
+            item["confidence"] = round(role.confidence, 4)
+        roles.append(item)
+    out["roles"] = roles
+    return out
+
+
+def record_to_dict(record: Record) -> dict[str, Any]:
+    """The JSON object of one record, keys in the spec's order."""
+    out: dict[str, Any] = {"id": record.id, "doc": record.doc, "text": record.text}
+    if record.events is not None:
+        out["events"] = [event_to_dict(e) for e in record.events]
+    if record.meta is not None:
+        out["meta"] = record.meta
+    return out
+
+
+def record_from_dict(obj: dict[str, Any]) -> Record:
+    """Build a record from an already validated JSON object."""
+    events = None
+    if "events" in obj:
+        events = tuple(
+            Event(
+                trigger=(e["trigger"][0], e["trigger"][1]),
+                roles=tuple(
+                    RoleSpan(r["role"], (r["span"][0], r["span"][1]), r.get("confidence"))
+                    for r in e.get("roles", [])
+                ),
+                confidence=e.get("confidence"),
+            )
+            for e in obj["events"]
+        )
+    return Record(id=obj["id"], doc=obj["doc"], text=obj["text"], events=events, meta=obj.get("meta"))
+
+
+def dumps_record(record: Record) -> str:
+    """One line of canonical JSONL (no trailing newline), non-ASCII kept as is."""
+    return json.dumps(record_to_dict(record), ensure_ascii=False)
+
+
+def write_jsonl(records: Iterable[Record], path: Path) -> int:
+    """Write records atomically (a temporary file renamed into place); return the count."""
+    path = Path(path)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    count = 0
+    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
+    try:
+        with os.fdopen(fd, "w", encoding="utf-8", newline="\n") as out:
+            for record in records:
+                out.write(dumps_record(record) + "\n")
+                count += 1
+        os.replace(tmp, path)
+    except BaseException:
+        Path(tmp).unlink(missing_ok=True)
+        raise
+    return count

@@ -1,0 +1,229 @@
+"""Validation of canonical JSONL files, with problems a researcher can act on.
+
+Each problem names the file, the line, the field (a JSON path such as
+``events[1].roles[0].span``), what is wrong and a hint. Errors make a record
+unusable; warnings point at likely annotation slips but keep the record.
+"""
+
+from __future__ import annotations
+
+import json
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any, Iterable
+
+from trainer.corpus.jsonl import iter_lines, record_from_dict
+from trainer.corpus.records import DEFAULT_ROLES, Record
+
+ERROR = "error"
+WARNING = "warning"
+PLACE_ROLES = ("source", "path", "destination")
+_EDGE_CHARS = " \t\n\r.,;:!?\"'()[]{}—–-"  # characters a span should not start or end with
+_KNOWN_KEYS = {
+    "record": {"id", "doc", "text", "events", "meta"},
+    "event": {"trigger", "roles", "confidence"},
+    "role": {"role", "span", "confidence"},
+}
+
+
+@dataclass(frozen=True)
+class Problem:
+    """One finding: where, what, and how to fix it."""
+
+    file: str
+    line: int
+    field: str
+    message: str
+    hint: str
+    severity: str = ERROR
+    record_id: str | None = None
+
+    def __str__(self) -> str:
+        text = f"{self.file}:{self.line}: {self.field}: {self.message}"
+        if self.severity == WARNING:
+            text = f"{self.file}:{self.line}: {self.field}: warning: {self.message}"
+        return f"{text}\n    hint: {self.hint}" if self.hint else text
+
+
+@dataclass
+class FileCheck:
+    """What checking files found: the usable records with their locations, and the problems."""
+
+    records: list[tuple[str, int, Record]] = field(default_factory=list)
+    problems: list[Problem] = field(default_factory=list)
+    bad_records: int = 0
+
+    @property
+    def errors(self) -> list[Problem]:
+        return [p for p in self.problems if p.severity == ERROR]
+
+    @property
+    def warnings(self) -> list[Problem]:
+        return [p for p in self.problems if p.severity == WARNING]
+
+
+class _LineChecker:
+    """Collects the problems of one JSON object (one line)."""
+
+    def __init__(self, file: str, line: int, roles: tuple[str, ...]) -> None:
+        self.file, self.line, self.roles = file, line, roles
+        self.problems: list[Problem] = []
+        self.record_id: str | None = None
+
+    def add(self, where: str, message: str, hint: str, severity: str = ERROR) -> None:
+        self.problems.append(Problem(self.file, self.line, where, message, hint, severity, self.record_id))
+
+    @property
+    def has_errors(self) -> bool:
+        return any(p.severity == ERROR for p in self.problems)
+
+    def string_field(self, obj: dict[str, Any], key: str, hint: str) -> None:
+        if key not in obj:
+            self.add(key, "missing", hint)
+        elif not isinstance(obj[key], str):
+            self.add(key, f"must be a string, got {type(obj[key]).__name__}", hint)
+        elif not obj[key].strip():
+            self.add(key, "is empty", hint)
+
+    def unknown_keys(self, obj: dict[str, Any], kind: str, where: str) -> None:
+        for key in sorted(set(obj) - _KNOWN_KEYS[kind]):
+            self.add(f"{where}{key}", "unknown key (ignored)", "check its spelling; free-form data goes in meta", WARNING)
+
+    def span(self, value: Any, where: str, text: str) -> tuple[int, int] | None:
+        """Check one ``[start, end)`` pair against the text; return it when usable."""
+        if not (isinstance(value, list) and len(value) == 2 and all(type(v) is int for v in value)):
+            self.add(where, f"must be [start, end] with two integers, got {json.dumps(value)}", "offsets are code-point indices")
+            return None
+        start, end = value
+        if start < 0 or end > len(text):
+            self.add(where, f"[{start}, {end}] is out of range for a text of {len(text)} characters",
+                     "offsets count Unicode code points from 0; end is exclusive")
+            return None
+        if start > end:
+            self.add(where, f"[{start}, {end}] is reversed (start after end)", "write [start, end] with start < end")
+            return None
+        if start == end:
+            self.add(where, f"[{start}, {end}] is an empty span", "a span covers at least one character")
+            return None
+        self.span_edges(where, text, start, end)
+        return start, end
+
+    def span_edges(self, where: str, text: str, start: int, end: int) -> None:
+        covered = text[start:end]
+        if covered[0] in _EDGE_CHARS or covered[-1] in _EDGE_CHARS:
+            self.add(where, f"span {covered!r} begins or ends with whitespace or punctuation",
+                     "trim the span to the words themselves", WARNING)
+        if (start > 0 and text[start - 1].isalnum() and covered[0].isalnum()) or (
+            end < len(text) and text[end].isalnum() and covered[-1].isalnum()
+        ):
+            self.add(where, f"span {covered!r} cuts through a word (context {text[max(0, start - 10):end + 10]!r})",
+                     "move the offsets to word boundaries", WARNING)
+
+    def event(self, event: Any, where: str, text: str) -> tuple[Any, ...] | None:
+        if not isinstance(event, dict):
+            self.add(where, f"must be an object, got {type(event).__name__}", 'write {"trigger": [s, e], "roles": [...]}')
+            return None
+        self.unknown_keys(event, "event", f"{where}.")
+        trigger = self.span(event["trigger"], f"{where}.trigger", text) if "trigger" in event else None
+        if "trigger" not in event:
+            self.add(f"{where}.trigger", "missing", "every event needs the span of its trigger word")
+        self.confidence(event, where)
+        roles = event.get("roles", [])
+        if not isinstance(roles, list):
+            self.add(f"{where}.roles", f"must be a list, got {type(roles).__name__}", "use [] for an event without roles")
+            return None
+        checked = [self.role(role, f"{where}.roles[{i}]", text) for i, role in enumerate(roles)]
+        self.mover_is_place(checked, where, text)
+        return (tuple(trigger) if trigger else None, tuple(sorted(r for r in checked if r)))
+
+    def role(self, role: Any, where: str, text: str) -> tuple[str, tuple[int, int]] | None:
+        if not isinstance(role, dict):
+            self.add(where, f"must be an object, got {type(role).__name__}", 'write {"role": "mover", "span": [s, e]}')
+            return None
+        self.unknown_keys(role, "role", f"{where}.")
+        self.confidence(role, where)
+        name = role.get("role")
+        if not isinstance(name, str):
+            self.add(f"{where}.role", "missing or not a string", f"use one of: {', '.join(self.roles)}")
+        elif name not in self.roles:
+            self.add(f"{where}.role", f"unknown role {name!r}", f"use one of: {', '.join(self.roles)} (or configure the role inventory)")
+        if "span" not in role:
+            self.add(f"{where}.span", "missing", "every role needs the span of its words")
+            return None
+        span = self.span(role["span"], f"{where}.span", text)
+        return (name, span) if span and isinstance(name, str) else None
+
+    def confidence(self, obj: dict[str, Any], where: str) -> None:
+        value = obj.get("confidence")
+        if value is not None and not (isinstance(value, (int, float)) and not isinstance(value, bool) and 0 <= value <= 1):
+            self.add(f"{where}.confidence", f"must be a number in [0, 1], got {json.dumps(value)}", "omit it for gold annotations")
+
+    def mover_is_place(self, roles: list[Any], where: str, text: str) -> None:
+        movers = {span for name, span in (r for r in roles if r) if name == "mover"}
+        places = {span for name, span in (r for r in roles if r) if name in PLACE_ROLES}
+        for span in sorted(movers & places):
+            self.add(f"{where}.roles", f"the mover {text[span[0]:span[1]]!r} is also marked as a place",
+                     "a mover changes location; a place is where it moves from, through or to", WARNING)
+
+    def check(self, obj: Any) -> dict[str, Any] | None:
+        """Check one parsed JSON value; return it when it makes a usable record."""
+        if not isinstance(obj, dict):
+            self.add("record", f"must be a JSON object, got {type(obj).__name__}", "one object per line")
+            return None
+        if isinstance(obj.get("id"), str):
+            self.record_id = obj["id"]
+        self.unknown_keys(obj, "record", "")
+        self.string_field(obj, "id", "give every record a unique id, e.g. 'journal-3-s014'")
+        self.string_field(obj, "doc", "name the document the sentence comes from; folds are grouped by it")
+        self.string_field(obj, "text", "the raw sentence the offsets point into")
+        if "meta" in obj and not isinstance(obj["meta"], dict):
+            self.add("meta", f"must be an object, got {type(obj['meta']).__name__}", 'write "meta": {...} or leave it out')
+        text = obj.get("text") if isinstance(obj.get("text"), str) else None
+        if "events" in obj and text is not None:
+            self.events(obj["events"], text)
+        return None if self.has_errors else obj
+
+    def events(self, events: Any, text: str) -> None:
+        if not isinstance(events, list):
+            self.add("events", f"must be a list, got {type(events).__name__}",
+                     "use [] for a sentence without motion, or leave the key out for unannotated text")
+            return
+        seen: dict[tuple[Any, ...], int] = {}
+        for i, event in enumerate(events):
+            key = self.event(event, f"events[{i}]", text)
+            if key is None or key[0] is None:
+                continue
+            if key in seen:
+                self.add(f"events[{i}]", f"repeats events[{seen[key]}] exactly", "delete the duplicate event", WARNING)
+            seen.setdefault(key, i)
+
+
+def check_files(paths: Iterable[Path], roles: tuple[str, ...] = DEFAULT_ROLES) -> FileCheck:
+    """Check canonical JSONL files together (ids must be unique across all of them).
+
+    Raises :class:`~trainer.errors.UnreadableInputError` for a file that cannot
+    be opened or decoded; every other problem is reported in the result.
+    """
+    result = FileCheck()
+    first_seen: dict[str, str] = {}
+    for path in paths:
+        for number, line in iter_lines(Path(path)):
+            checker = _LineChecker(str(path), number, roles)
+            try:
+                obj = checker.check(json.loads(line))
+            except json.JSONDecodeError as exc:
+                checker.add("record", f"malformed JSON: {exc.msg} at column {exc.colno}", "each line must be one complete JSON object")
+                obj = None
+            if obj is not None:
+                where = f"{path}:{number}"
+                if obj["id"] in first_seen:
+                    checker.add("id", f"duplicate id {obj['id']!r} (first at {first_seen[obj['id']]})", "ids must be unique in the corpus")
+                    obj = None
+                else:
+                    first_seen[obj["id"]] = where
+            result.problems.extend(checker.problems)
+            if obj is None:
+                result.bad_records += 1
+            else:
+                result.records.append((str(path), number, record_from_dict(obj)))
+    return result

@@ -1,0 +1,56 @@
+"""The package's error classes.
+
+Every error a user can cause is an :class:`ItinerantError`: its message says
+what is wrong, where, and what to do. The CLI prints the message and exits
+with ``exit_code``, with no traceback; anything else is a bug and keeps its
+traceback.
+"""
+
+from __future__ import annotations
+
+
+class ItinerantError(Exception):
+    """Base class: a problem the user can fix. ``exit_code`` is what the CLI returns."""
+
+    exit_code = 1
+
+    def __init__(self, cause: str, fix: str = "") -> None:
+        self.cause = cause
+        self.fix = fix
+        super().__init__(f"{cause}\n  fix: {fix}" if fix else cause)
+
+
+class UnreadableInputError(ItinerantError):
+    """A file could not be opened or decoded at all."""
+
+    exit_code = 2
+
+
+class CorpusError(ItinerantError):
+    """A corpus has errors and the caller did not ask to skip bad records."""
+
+    exit_code = 1
+
+
+class ConfigError(ItinerantError):
+    """An experiment config has an unknown key or a value out of range."""
+
+    exit_code = 2
+
+
+class PipelineNotFoundError(ItinerantError):
+    """The requested spaCy pipeline is not installed."""
+
+    exit_code = 2
+
+
+class ModelFileError(ItinerantError):
+    """A model file is missing, altered, truncated or not ours."""
+
+    exit_code = 2
+
+
+class NotFittedError(ItinerantError):
+    """A model was asked to predict before it was fitted."""
+
+    exit_code = 2

@@ -1,0 +1,1 @@
+"""Features computed from parsed sentences, and the lexicons they use."""

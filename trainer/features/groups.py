@@ -1,0 +1,224 @@
+"""Named feature groups: each a small function from a parsed token to a feature dict.
+
+Values are strings, booleans or numbers, the shape CRFsuite and scikit-learn's
+DictVectorizer both take. Every group reads only the parse and the lexicons,
+so training and prediction compute features the same way.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from spacy.tokens import Doc, Token
+
+from trainer.features.lexicons import Lexicons
+
+Features = dict[str, str | float | bool]
+
+_PP_INNER_DEPS = {"pobj", "compound", "amod", "det", "poss", "nummod", "nmod", "appos", "conj", "cc", "case", "quantmod", "flat"}
+_MAX_PREP_WORDS = 4
+DISTANCE_BUCKETS = (1, 2, 3, 5, 8, 13)
+
+
+def shape(text: str) -> str:
+    """Word shape with runs collapsed: 'Caddow' -> 'Xx', 'd-2' -> 'x-d'."""
+    out: list[str] = []
+    for ch in text:
+        code = "X" if ch.isupper() else "x" if ch.isalpha() else "d" if ch.isdigit() else ch
+        if not out or out[-1] != code:
+            out.append(code)
+    return "".join(out)
+
+
+def lexical(token: Token, affix_length: int = 3) -> Features:
+    """Word form, lemma, shape, affixes, case and digits."""
+    lower = token.lower_
+    return {
+        "lower": lower,
+        "lemma": token.lemma_.lower(),
+        "shape": shape(token.text),
+        "prefix": lower[:affix_length],
+        "suffix": lower[-affix_length:],
+        "is_title": token.is_title,
+        "is_upper": token.is_upper,
+        "has_digit": any(c.isdigit() for c in token.text),
+        "is_punct": token.is_punct,
+    }
+
+
+def tagging(token: Token) -> Features:
+    """Coarse and fine part of speech, named-entity type and IOB from the pipeline."""
+    return {"pos": token.pos_, "tag": token.tag_, "ent_type": token.ent_type_ or "-", "ent_iob": token.ent_iob_ or "O"}
+
+
+def governing_preposition(token: Token) -> str:
+    """The preposition a token's phrase hangs from ('through' for 'Gap' in 'through the Sallow Gap').
+
+    Multiword prepositions are joined ('out of', 'by way of'); '' when the token
+    is not inside a prepositional phrase.
+    """
+    node = token
+    while node.dep_ in _PP_INNER_DEPS and node.dep_ != "pobj" and node.head is not node:
+        node = node.head
+    if node.dep_ != "pobj" or node.head.pos_ not in {"ADP", "ADV", "SCONJ"}:
+        return ""
+    words = [node.head]
+    # Multiword prepositions chain leftwards through adjacent heads: 'out of', 'by way of'.
+    while len(words) < _MAX_PREP_WORDS and _extends_preposition(words[-1]):
+        words.append(words[-1].head)
+    return " ".join(t.lower_ for t in sorted(words, key=lambda t: t.i))
+
+
+def _extends_preposition(word: Token) -> bool:
+    head = word.head
+    return word.dep_ in {"prep", "pobj"} and head.i == word.i - 1 and head.pos_ in {"ADP", "ADV", "NOUN"}
+
+
+def depth(token: Token) -> int:
+    """Steps from the token to the root of its sentence."""
+    steps = 0
+    while token.head is not token and steps < 50:
+        token, steps = token.head, steps + 1
+    return steps
+
+
+def syntax(token: Token) -> Features:
+    """Dependency label, head, governing preposition, children's prepositions, depth, voice."""
+    features: Features = {
+        "dep": token.dep_,
+        "head_lemma": token.head.lemma_.lower(),
+        "head_pos": token.head.pos_,
+        "head_dep": f"{token.dep_}<{token.head.pos_}",
+        "gov_prep": governing_preposition(token) or "-",
+        "depth": str(min(depth(token), 6)),
+        "passive_subject": token.dep_ in {"nsubjpass", "csubjpass"},
+        "passive_verb": any(c.dep_ == "auxpass" for c in token.children),
+    }
+    for child in token.children:
+        if child.dep_ in {"prep", "agent", "dative"}:
+            features[f"child_prep={child.lower_}"] = True
+        elif child.dep_ in {"prt", "advmod"}:
+            features[f"child_{child.dep_}={child.lower_}"] = True
+    return features
+
+
+def preposition_cue(doc: Doc, i: int, lexicons: Lexicons) -> str:
+    """The role cued by a (possibly multiword) preposition starting at or ending on token i."""
+    for length in range(_MAX_PREP_WORDS, 0, -1):
+        for start in range(i - length + 1, i + 1):
+            if start < 0 or start + length > len(doc):
+                continue
+            role = lexicons.preposition_role(" ".join(t.lower_ for t in doc[start : start + length]))
+            if role and doc[start].pos_ in {"ADP", "ADV", "SCONJ", "PART"}:
+                return role
+    return ""
+
+
+def lexicon(token: Token, lexicons: Lexicons, gazetteer_tag: str = "O") -> Features:
+    """Motion-verb or motion-noun class, preposition cues, direction words, gazetteer membership."""
+    lemma = token.lemma_.lower()
+    features: Features = {"gazetteer": gazetteer_tag, "direction": token.lower_ in lexicons.directions}
+    if token.pos_ in {"VERB", "AUX"}:
+        features["verb_class"] = lexicons.verb_class(lemma) or "-"
+        particles = [c.lower_ for c in token.children if c.dep_ == "prt"]
+        if particles:
+            phrasal = lexicons.verb_class(f"{lemma} {particles[0]}")
+            if phrasal:
+                features["verb_class"] = phrasal
+    elif token.pos_ == "NOUN":
+        features["noun_class"] = lexicons.noun_class(lemma) or "-"
+    gov = governing_preposition(token)
+    if gov:
+        features["gov_prep_cue"] = lexicons.preposition_role(gov) or "-"
+    return features
+
+
+def context(per_token: list[Features], i: int, window: int, keys: tuple[str, ...]) -> Features:
+    """Selected features of the neighbouring tokens, prefixed by their offset ('-1:lower')."""
+    out: Features = {}
+    for offset in range(-window, window + 1):
+        j = i + offset
+        if offset == 0:
+            continue
+        if 0 <= j < len(per_token):
+            for key in keys:
+                if key in per_token[j]:
+                    out[f"{offset:+d}:{key}"] = per_token[j][key]
+        else:
+            out[f"{offset:+d}:edge"] = True
+    if i == 0:
+        out["BOS"] = True
+    if i == len(per_token) - 1:
+        out["EOS"] = True
+    return out
+
+
+def bucket(distance: int) -> str:
+    """A coarse distance label so the model generalises over exact positions."""
+    for limit in DISTANCE_BUCKETS:
+        if distance <= limit:
+            return f"<={limit}"
+    return f">{DISTANCE_BUCKETS[-1]}"
+
+
+def dependency_path(token: Token, target: Token) -> tuple[str, int]:
+    """Labels from ``token`` up to the common ancestor and down to ``target``.
+
+    Written ``pobj↑prep↑↓`` style: ``label↑`` for each step up from the token,
+    ``↓label`` for each step down to the target. Returns the path and its length.
+    """
+    up = [token] + list(token.ancestors)
+    target_chain = [target] + list(target.ancestors)
+    target_set = {t.i for t in target_chain}
+    common = next((t for t in up if t.i in target_set), None)
+    if common is None:
+        return "none", 0
+    up_steps = [t.dep_ + "↑" for t in up[: [t.i for t in up].index(common.i)]]
+    down_chain = target_chain[: [t.i for t in target_chain].index(common.i)]
+    down_steps = ["↓" + t.dep_ for t in reversed(down_chain)]
+    return "".join(up_steps + down_steps) or "self", len(up_steps) + len(down_steps)
+
+
+def trigger_relative(token: Token, trigger: tuple[int, int], lexicons: Lexicons) -> Features:
+    """Where the token stands relative to one trigger: side, distance, dependency path, subtree."""
+    doc = token.doc
+    first, end = trigger
+    head = doc[first:end].root
+    if first <= token.i < end:
+        side, distance = "in", 0
+    elif token.i < first:
+        side, distance = "before", first - token.i
+    else:
+        side, distance = "after", token.i - end + 1
+    path, length = dependency_path(token, head)
+    trigger_lemma = head.lemma_.lower()
+    return {
+        "t_side": side,
+        "t_distance": bucket(distance),
+        "t_side_distance": f"{side}{bucket(distance)}",
+        "t_path": path,
+        "t_path_length": str(min(length, 6)),
+        "t_path_dep": f"{path}|{token.dep_}",
+        "t_in_subtree": head.left_edge.i <= token.i <= head.right_edge.i and token.i in {t.i for t in head.subtree},
+        "t_lemma": trigger_lemma,
+        "t_class": lexicons.verb_class(trigger_lemma) or lexicons.noun_class(trigger_lemma) or "-",
+        "t_gov_prep": f"{governing_preposition(token) or '-'}|{lexicons.verb_class(trigger_lemma) or '-'}",
+    }
+
+
+@dataclass(frozen=True)
+class GroupSpec:
+    """A feature group's name and one line on what it captures (shown in docs and reports)."""
+
+    name: str
+    summary: str
+
+
+GROUPS: tuple[GroupSpec, ...] = (
+    GroupSpec("lexical", "lower form, lemma, shape, prefix/suffix, title/upper case, digits"),
+    GroupSpec("tagging", "POS, fine tag, named-entity type and IOB"),
+    GroupSpec("context", "lexical and tagging features of neighbouring tokens"),
+    GroupSpec("syntax", "dependency label, head lemma/POS, governing preposition, children's prepositions, depth, voice"),
+    GroupSpec("trigger_relative", "side, distance bucket, dependency path to the trigger, subtree, trigger lemma and class"),
+    GroupSpec("lexicon", "motion-verb/noun class, preposition role cues, direction words, gazetteer"),
+)

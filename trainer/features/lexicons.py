@@ -1,0 +1,201 @@
+"""The word lists that features and the rule baseline look words up in.
+
+Four plain data files ship in ``trainer/features/lexicons/``; each can be
+replaced by a file of the same layout (config keys under
+``[features.lexicons]``, see ``docs/features.md``):
+
+- ``motion_verbs.tsv``: ``lemma<TAB>class``, e.g. ``set out<TAB>departure``
+- ``motion_nouns.tsv``: ``lemma<TAB>class``, e.g. ``voyage<TAB>general``
+- ``prepositions.tsv``: ``preposition<TAB>role``, e.g. ``by way of<TAB>path``
+- ``directions.txt``: ``direction``, one word a line, e.g. ``northward``
+
+Every file starts with its header line (the column names above); blank lines
+and lines starting with ``#`` are skipped. Entries are lowercased and runs of
+spaces inside a multiword entry are collapsed to one space. Each entry may be
+listed once, and classes and roles must be from :data:`MOTION_CLASSES` and
+:data:`PREPOSITION_ROLES`.
+
+>>> lexicons = load_lexicons()
+>>> lexicons.verb_class("Set out"), lexicons.preposition_role("by way of")
+('departure', 'path')
+"""
+
+from __future__ import annotations
+
+import functools
+from dataclasses import dataclass
+from importlib import resources
+from pathlib import Path
+from typing import Mapping
+
+from trainer.errors import ConfigError
+
+MOTION_CLASSES: tuple[str, ...] = (
+    "departure",
+    "arrival",
+    "traversal",
+    "manner",
+    "return",
+    "ascent_descent",
+    "vehicle",
+    "caused",
+    "general",
+)
+"""The classes of motion verbs and nouns (the project's own grouping)."""
+
+PREPOSITION_ROLES: tuple[str, ...] = ("source", "path", "destination")
+"""The roles a spatial preposition can cue."""
+
+
+@dataclass(frozen=True)
+class _Layout:
+    """What one lexicon file looks like: its packaged name, header and allowed values."""
+
+    filename: str
+    header: tuple[str, ...]
+    allowed: tuple[str, ...] = ()  # allowed values of the second column; () for one-column files
+
+    def describe(self) -> str:
+        """The expected line layout, for error messages."""
+        layout = "<TAB>".join(self.header)
+        if self.allowed:
+            layout += f" with {self.header[1]} one of {', '.join(self.allowed)}"
+        return layout
+
+
+_LAYOUTS: dict[str, _Layout] = {
+    "motion_verbs": _Layout("motion_verbs.tsv", ("lemma", "class"), MOTION_CLASSES),
+    "motion_nouns": _Layout("motion_nouns.tsv", ("lemma", "class"), MOTION_CLASSES),
+    "prepositions": _Layout("prepositions.tsv", ("preposition", "role"), PREPOSITION_ROLES),
+    "directions": _Layout("directions.txt", ("direction",)),
+}
+
+_Entries = tuple[tuple[str, ...], ...]
+
+
+def _normalize(text: str) -> str:
+    """Lowercase and collapse whitespace: ``"Set  Out"`` -> ``"set out"``."""
+    return " ".join(text.lower().split())
+
+
+@dataclass(frozen=True)
+class Lexicons:
+    """The loaded lexicons; all keys and values are lowercase.
+
+    ``motion_verbs`` and ``motion_nouns`` map a lemma (phrasal ones with a
+    space, ``"set out"``) to its class; ``prepositions`` maps a single or
+    multiword preposition to the role it cues; ``directions`` holds direction
+    words (``"northward"``, ``"ashore"``).
+    """
+
+    motion_verbs: Mapping[str, str]
+    motion_nouns: Mapping[str, str]
+    prepositions: Mapping[str, str]
+    directions: frozenset[str]
+
+    def verb_class(self, lemma: str) -> str | None:
+        """The class of a verb lemma (any case, e.g. ``"Set out"``), or None if not listed."""
+        return self.motion_verbs.get(_normalize(lemma))
+
+    def noun_class(self, lemma: str) -> str | None:
+        """The class of a noun lemma (any case), or None if not listed."""
+        return self.motion_nouns.get(_normalize(lemma))
+
+    def preposition_role(self, word_or_phrase: str) -> str | None:
+        """The role cued by a preposition (``"from"``, ``"as far as"``), or None if not listed."""
+        return self.prepositions.get(_normalize(word_or_phrase))
+
+
+def _parse(text: str, *, source: str, kind: str) -> _Entries:
+    """Parse the text of one lexicon file into its entries, one tuple of fields each.
+
+    ``source`` names the file in error messages, ``kind`` is a key of ``_LAYOUTS``.
+    Raises :class:`ConfigError` naming ``source:line`` for any malformed line.
+    """
+    layout = _LAYOUTS[kind]
+    fix = f"write one entry per line as {layout.describe()}, after the header line; lines starting with # are comments"
+    header_seen = False
+    first_line: dict[str, int] = {}
+    entries: list[tuple[str, ...]] = []
+    for number, raw in enumerate(text.split("\n"), start=1):
+        line = raw.strip()
+        if not line or line.startswith("#"):
+            continue
+        fields = tuple(_normalize(field) for field in raw.split("\t"))
+        where = f"{source}:{number}"
+        if not header_seen:
+            if fields != layout.header:
+                raise ConfigError(
+                    f"{where}: the header line is {line!r}, expected {'<TAB>'.join(layout.header)!r}",
+                    f"start the file with the header line; then {fix}",
+                )
+            header_seen = True
+            continue
+        if len(fields) != len(layout.header) or not all(fields):
+            raise ConfigError(
+                f"{where}: expected {layout.describe()}, found {line!r}",
+                fix,
+            )
+        if layout.allowed and fields[1] not in layout.allowed:
+            raise ConfigError(
+                f"{where}: unknown {layout.header[1]} {fields[1]!r} for {fields[0]!r}; "
+                f"expected one of {', '.join(layout.allowed)}",
+                fix,
+            )
+        if fields[0] in first_line:
+            raise ConfigError(
+                f"{where}: {fields[0]!r} is already listed on line {first_line[fields[0]]}",
+                f"keep one entry per {layout.header[0]} (its primary {layout.header[-1]})",
+            )
+        first_line[fields[0]] = number
+        entries.append(fields)
+    if not header_seen:
+        raise ConfigError(f"{source}: no header line", f"start the file with the header line; then {fix}")
+    return tuple(entries)
+
+
+@functools.lru_cache(maxsize=None)
+def _packaged_entries(kind: str) -> _Entries:
+    """The parsed entries of the packaged file for ``kind``, read once per process."""
+    resource = resources.files("trainer.features").joinpath("lexicons", _LAYOUTS[kind].filename)
+    return _parse(resource.read_text(encoding="utf-8-sig"), source=str(resource), kind=kind)
+
+
+def _file_entries(path: Path, kind: str) -> _Entries:
+    """The parsed entries of a user's replacement file for ``kind``."""
+    fix = f"fix the path given as [features.lexicons] {kind}, or remove the key to use the packaged list"
+    try:
+        text = Path(path).read_text(encoding="utf-8-sig")
+    except FileNotFoundError:
+        raise ConfigError(f"{path}: no such {kind} lexicon file", fix) from None
+    except UnicodeDecodeError:
+        raise ConfigError(f"{path}: the {kind} lexicon is not UTF-8 text", "re-save the file as UTF-8") from None
+    except OSError as exc:
+        raise ConfigError(f"{path}: cannot read the {kind} lexicon ({exc.strerror})", fix) from None
+    return _parse(text, source=str(path), kind=kind)
+
+
+def _entries(path: Path | None, kind: str) -> _Entries:
+    """The packaged entries when ``path`` is None, else those of the file at ``path``."""
+    return _packaged_entries(kind) if path is None else _file_entries(path, kind)
+
+
+def load_lexicons(
+    *,
+    motion_verbs: Path | None = None,
+    motion_nouns: Path | None = None,
+    prepositions: Path | None = None,
+    directions: Path | None = None,
+) -> Lexicons:
+    """Load the four lexicons; a None path means the packaged file.
+
+    The packaged files are parsed once per process; a file given by path is
+    read on every call. Raises :class:`ConfigError` for an unreadable file or
+    a malformed line (the message names ``file:line`` and the expected layout).
+    """
+    return Lexicons(
+        motion_verbs=dict(_entries(motion_verbs, "motion_verbs")),
+        motion_nouns=dict(_entries(motion_nouns, "motion_nouns")),
+        prepositions=dict(_entries(prepositions, "prepositions")),
+        directions=frozenset(fields[0] for fields in _entries(directions, "directions")),
+    )

@@ -1,0 +1,117 @@
+"""The two-stage motion-event extractor: find triggers, then label roles for each.
+
+Which trigger finder and which role labeller are used comes from the config
+(``[trigger_model] kind`` and ``[role_model] kind``: ``crf``, ``logistic`` or
+``rules``), so any finder combines with any labeller.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Sequence
+
+from spacy.tokens import Doc
+
+from trainer.config import ExperimentConfig, ModelConfig
+from trainer.corpus.records import Event, Record, RoleSpan
+from trainer.errors import ConfigError
+from trainer.features.extract import Featurizer
+from trainer.models.rules import RuleRoleLabeller, RuleTriggerFinder
+from trainer.models.sequence import CRFTagger, LogisticTagger
+from trainer.models.stages import CandidateRoleLinker, SequenceRoleLabeller, SequenceTriggerFinder
+from trainer.parsing.align import AlignmentReport, span_to_tokens, tokens_to_span
+
+
+@dataclass
+class GoldTargets:
+    """Gold triggers and roles as token ranges, per sentence (and per trigger for roles)."""
+
+    triggers: list[list[tuple[int, int]]] = field(default_factory=list)
+    roles: list[list[list[tuple[int, int, str]]]] = field(default_factory=list)
+    alignment: AlignmentReport = field(default_factory=AlignmentReport)
+
+
+def gold_targets(records: Sequence[Record], docs: Sequence[Doc]) -> GoldTargets:
+    """Align each record's gold events to its doc's tokens (policy in :mod:`trainer.parsing.align`)."""
+    targets = GoldTargets()
+    for record, doc in zip(records, docs):
+        triggers, roles = [], []
+        for event in record.events or ():
+            trigger = span_to_tokens(doc, event.trigger, targets.alignment)
+            if trigger is None:
+                continue
+            aligned = [(span_to_tokens(doc, r.span, targets.alignment), r.role) for r in event.roles]
+            triggers.append(trigger)
+            roles.append([(t[0], t[1], role) for t, role in aligned if t is not None])
+        targets.triggers.append(triggers)
+        targets.roles.append(roles)
+    return targets
+
+
+def _tagger(config: ModelConfig) -> CRFTagger | LogisticTagger:
+    if config.kind == "crf":
+        return CRFTagger(c1=config.c1, c2=config.c2, algorithm=config.algorithm,
+                         max_iterations=config.max_iterations, threshold=config.threshold)
+    return LogisticTagger(C=config.C, class_weight=config.class_weight, threshold=config.threshold)
+
+
+def build_trigger_finder(config: ModelConfig, featurizer: Featurizer):
+    """The trigger stage a config names."""
+    if config.kind == "rules":
+        return RuleTriggerFinder(featurizer.lexicons)
+    return SequenceTriggerFinder(_tagger(config), featurizer)
+
+
+def build_role_labeller(config: ModelConfig, featurizer: Featurizer):
+    """The role stage a config names: CRF over sequences, logistic over candidates, or rules."""
+    if config.kind == "rules":
+        return RuleRoleLabeller(featurizer.lexicons)
+    if config.kind == "logistic":
+        return CandidateRoleLinker(featurizer=featurizer, C=config.C, class_weight=config.class_weight,
+                                   threshold=config.threshold)
+    return SequenceRoleLabeller(_tagger(config), featurizer)
+
+
+class MotionExtractor:
+    """Trigger finder plus role labeller, trained on gold triggers, applied to predicted ones."""
+
+    def __init__(self, config: ExperimentConfig, featurizer: Featurizer) -> None:
+        self.config = config
+        self.featurizer = featurizer
+        self.trigger_finder = build_trigger_finder(config.trigger_model, featurizer)
+        self.role_labeller = build_role_labeller(config.role_model, featurizer)
+        self.alignment_: AlignmentReport | None = None
+
+    def fit(self, records: Sequence[Record], docs: Sequence[Doc]) -> "MotionExtractor":
+        """Train both stages on annotated records (negatives included; unannotated ones refused)."""
+        unannotated = [r.id for r in records if not r.is_annotated]
+        if unannotated:
+            raise ConfigError(f"{len(unannotated)} training record(s) carry no annotation, e.g. {unannotated[:3]}",
+                              "train on annotated records only (records with an 'events' list)")
+        targets = gold_targets(records, docs)
+        self.alignment_ = targets.alignment
+        self.trigger_finder.fit(docs, targets.triggers)
+        with_triggers = [i for i, ts in enumerate(targets.triggers) if ts]
+        self.role_labeller.fit([docs[i] for i in with_triggers], [targets.triggers[i] for i in with_triggers],
+                               [targets.roles[i] for i in with_triggers])
+        return self
+
+    def predict(self, records: Sequence[Record], docs: Sequence[Doc], *, gold_triggers: bool = False) -> list[Record]:
+        """Records carrying predicted events with confidences (``gold_triggers``: label roles of the gold triggers)."""
+        if gold_triggers:
+            triggers = [[(f, e, 1.0) for f, e in ts] for ts in gold_targets(records, docs).triggers]
+        else:
+            triggers = self.trigger_finder.predict(docs)
+        roles = self.role_labeller.predict(docs, triggers)
+        out = []
+        for record, doc, sentence_triggers, sentence_roles in zip(records, docs, triggers, roles):
+            events = [
+                Event(
+                    trigger=tokens_to_span(doc, first, end),
+                    roles=tuple(RoleSpan(role, tokens_to_span(doc, f, e), round(p, 4)) for f, e, role, p in event_roles),
+                    confidence=round(probability, 4),
+                )
+                for (first, end, probability), event_roles in zip(sentence_triggers, sentence_roles)
+            ]
+            out.append(record.with_events(events))
+        return out

@@ -1,0 +1,132 @@
+"""Model files: one file holding the fitted extractor and a metadata block, with a digest beside it.
+
+Layout of ``model.itin``: a first line ``ITINERANT-MODEL <format>``, a second
+line of JSON metadata (readable without unpickling), then the extractor as a
+joblib pickle. ``model.itin.sha256`` holds the SHA-256 of the whole file.
+
+Model files are pickles. Unpickling runs code, so load only files from a
+source you trust. The digest is checked before anything is unpickled: it
+catches truncated, corrupted or altered files and files that are not ours,
+but anyone who can change the model can also change its digest, so it does
+not replace trusting where the file came from.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import io
+import json
+import os
+import platform
+import tempfile
+import warnings
+from dataclasses import dataclass
+from importlib import metadata as importlib_metadata
+from pathlib import Path
+from typing import Any
+
+import joblib
+
+from trainer.errors import ModelFileError
+
+MAGIC = b"ITINERANT-MODEL"
+FORMAT_VERSION = 1
+DIGEST_SUFFIX = ".sha256"
+TRACKED_PACKAGES = ("itinerant", "spacy", "sklearn-crfsuite", "python-crfsuite", "scikit-learn", "numpy", "joblib")
+
+
+def library_versions() -> dict[str, str]:
+    """Versions of the packages a model's behaviour depends on, plus Python's."""
+    versions = {"python": platform.python_version()}
+    for name in TRACKED_PACKAGES:
+        try:
+            versions[name] = importlib_metadata.version(name)
+        except importlib_metadata.PackageNotFoundError:
+            versions[name] = "not installed"
+    return versions
+
+
+def digest_path(path: Path) -> Path:
+    return path.with_name(path.name + DIGEST_SUFFIX)
+
+
+def _atomic_write(path: Path, data: bytes) -> None:
+    path.parent.mkdir(parents=True, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
+    try:
+        with os.fdopen(fd, "wb") as out:
+            out.write(data)
+            out.flush()
+            os.fsync(out.fileno())
+        os.replace(tmp, path)
+    except BaseException:
+        Path(tmp).unlink(missing_ok=True)
+        raise
+
+
+def save_model(model: Any, path: Path | str, metadata: dict[str, Any]) -> dict[str, Any]:
+    """Write a model file and its digest atomically; return the metadata as written."""
+    path = Path(path)
+    payload = io.BytesIO()
+    joblib.dump(model, payload, compress=3)
+    meta = {"format_version": FORMAT_VERSION, "versions": library_versions(), **metadata,
+            "payload_bytes": payload.getbuffer().nbytes}
+    data = MAGIC + b" %d\n" % FORMAT_VERSION + json.dumps(meta, sort_keys=True).encode("utf-8") + b"\n" + payload.getvalue()
+    _atomic_write(path, data)
+    _atomic_write(digest_path(path), f"{hashlib.sha256(data).hexdigest()}  {path.name}\n".encode("ascii"))
+    return meta
+
+
+@dataclass
+class LoadedModel:
+    model: Any
+    metadata: dict[str, Any]
+
+
+def _verified_bytes(path: Path) -> bytes:
+    try:
+        data = path.read_bytes()
+    except FileNotFoundError:
+        raise ModelFileError(f"{path}: no such model file", "train one with `itinerant fit`") from None
+    try:
+        expected = digest_path(path).read_text(encoding="ascii").split()[0]
+    except (FileNotFoundError, IndexError, UnicodeDecodeError):
+        raise ModelFileError(f"{path}: no readable digest file {digest_path(path).name} beside it",
+                             "model files are pickles: only load files written by `itinerant fit` with their digest") from None
+    actual = hashlib.sha256(data).hexdigest()
+    if actual != expected:
+        raise ModelFileError(
+            f"{path}: SHA-256 digest mismatch (file {actual[:12]}..., expected {expected[:12]}...): "
+            "the file was changed, truncated or replaced after it was written",
+            "retrain with `itinerant fit` or restore the original file; do not load it",
+        )
+    return data
+
+
+def read_metadata(path: Path | str) -> tuple[dict[str, Any], bytes]:
+    """The verified metadata block and the payload, without unpickling anything."""
+    path = Path(path)
+    data = _verified_bytes(path)
+    header, _, rest = data.partition(b"\n")
+    if not header.startswith(MAGIC):
+        raise ModelFileError(f"{path}: not an itinerant model file", "name a file written by `itinerant fit`")
+    meta_line, _, payload = rest.partition(b"\n")
+    try:
+        meta = json.loads(meta_line)
+    except ValueError:
+        raise ModelFileError(f"{path}: damaged metadata block", "retrain with `itinerant fit`") from None
+    return meta, payload
+
+
+def load_model(path: Path | str) -> LoadedModel:
+    """Verify the digest and the header, warn on version differences, then unpickle."""
+    meta, payload = read_metadata(path)
+    if meta.get("format_version") != FORMAT_VERSION:
+        raise ModelFileError(f"{path}: model file format {meta.get('format_version')} (this itinerant reads {FORMAT_VERSION})",
+                             "retrain the model with this version of itinerant")
+    now = library_versions()
+    differing = {k: (v, now.get(k)) for k, v in meta.get("versions", {}).items() if now.get(k) != v}
+    if differing:
+        listed = ", ".join(f"{k} {old} -> {new}" for k, (old, new) in sorted(differing.items()))
+        warnings.warn(f"{path}: written with other library versions ({listed}); predictions may differ", stacklevel=2)
+    return LoadedModel(model=joblib.load(io.BytesIO(payload)), metadata=meta)

@@ -1,0 +1,144 @@
+"""Token-sequence estimators in scikit-learn style: a CRF and a per-token logistic model.
+
+Both take ``X`` as a list of sentences, each a list of feature dicts (one per
+token), and ``y`` as a list of BIO tag lists of the same shape. Both give, for
+each predicted span, a probability: the CRF's mean marginal of the span's
+tags, the logistic model's mean probability of the tokens' tags.
+"""
+
+from __future__ import annotations
+
+from typing import Any, Sequence
+
+import numpy as np
+import sklearn_crfsuite
+from sklearn.base import BaseEstimator
+from sklearn.feature_extraction import DictVectorizer
+from sklearn.linear_model import LogisticRegression
+
+from trainer.errors import ConfigError, NotFittedError
+from trainer.parsing.align import bio_to_ranges
+
+Sentence = list[dict[str, Any]]
+SpanGuess = tuple[int, int, str, float]  # first token, end token, label, probability
+
+
+def _check_shapes(X: Sequence[Sentence], y: Sequence[list[str]]) -> None:
+    if len(X) != len(y):
+        raise ConfigError(f"X has {len(X)} sentences but y has {len(y)}", "pass one tag list per sentence")
+    for i, (features, tags) in enumerate(zip(X, y)):
+        if len(features) != len(tags):
+            raise ConfigError(f"sentence {i}: {len(features)} tokens but {len(tags)} tags", "tokens and tags must line up")
+
+
+def _spans_with_probabilities(tags: list[str], token_probs: list[dict[str, float]]) -> list[SpanGuess]:
+    out = []
+    for first, end, label in bio_to_ranges(tags):
+        probs = [token_probs[first].get(f"B-{label}", 0.0)]
+        probs += [token_probs[i].get(f"I-{label}", 0.0) for i in range(first + 1, end)]
+        out.append((first, end, label, float(np.mean(probs))))
+    return out
+
+
+class CRFTagger(BaseEstimator):
+    """A linear-chain CRF (CRFsuite) over BIO tags; ``threshold`` drops spans below that probability."""
+
+    def __init__(self, *, c1: float = 0.05, c2: float = 0.05, algorithm: str = "lbfgs",
+                 max_iterations: int = 150, threshold: float = 0.0) -> None:
+        self.c1 = c1
+        self.c2 = c2
+        self.algorithm = algorithm
+        self.max_iterations = max_iterations
+        self.threshold = threshold
+
+    def fit(self, X: Sequence[Sentence], y: Sequence[list[str]]) -> "CRFTagger":
+        _check_shapes(X, y)
+        options: dict[str, Any] = {"algorithm": self.algorithm, "max_iterations": self.max_iterations}
+        if self.algorithm in {"lbfgs"}:
+            options.update(c1=self.c1, c2=self.c2)
+        elif self.algorithm == "l2sgd":
+            options.update(c2=self.c2)
+        self.crf_ = sklearn_crfsuite.CRF(all_possible_transitions=True, **options)
+        self.crf_.fit(list(X), list(y))
+        self.labels_ = sorted(self.crf_.classes_)
+        return self
+
+    def _fitted(self) -> sklearn_crfsuite.CRF:
+        if not hasattr(self, "crf_"):
+            raise NotFittedError("this CRFTagger is not fitted yet", "call fit before predict")
+        return self.crf_
+
+    def predict(self, X: Sequence[Sentence]) -> list[list[str]]:
+        """The most likely BIO sequence per sentence."""
+        return [list(tags) for tags in self._fitted().predict(list(X))] if len(X) else []
+
+    def predict_spans(self, X: Sequence[Sentence]) -> list[list[SpanGuess]]:
+        """Spans per sentence with the mean marginal probability of their tags, above the threshold."""
+        if not len(X):
+            return []
+        crf = self._fitted()
+        out = []
+        for tags, marginals in zip(crf.predict(list(X)), crf.predict_marginals(list(X))):
+            spans = _spans_with_probabilities(list(tags), marginals)
+            out.append([s for s in spans if s[3] >= self.threshold])
+        return out
+
+
+class LogisticTagger(BaseEstimator):
+    """Per-token logistic regression over BIO tags (no transitions); a simpler, faster alternative."""
+
+    def __init__(self, *, C: float = 1.0, class_weight: str = "none", max_iterations: int = 1000,
+                 threshold: float = 0.0, random_state: int = 0) -> None:
+        self.C = C
+        self.class_weight = class_weight
+        self.max_iterations = max_iterations
+        self.threshold = threshold
+        self.random_state = random_state
+
+    def fit(self, X: Sequence[Sentence], y: Sequence[list[str]]) -> "LogisticTagger":
+        _check_shapes(X, y)
+        self.vectorizer_ = DictVectorizer(sort=True)
+        matrix = self.vectorizer_.fit_transform([f for sentence in X for f in sentence])
+        labels = [t for tags in y for t in tags]
+        self.model_ = LogisticRegression(
+            C=self.C, class_weight=None if self.class_weight == "none" else self.class_weight,
+            max_iter=self.max_iterations, random_state=self.random_state,
+        )
+        self.model_.fit(matrix, labels)
+        self.labels_ = list(self.model_.classes_)
+        return self
+
+    def _token_probabilities(self, X: Sequence[Sentence]) -> list[list[dict[str, float]]]:
+        if not hasattr(self, "model_"):
+            raise NotFittedError("this LogisticTagger is not fitted yet", "call fit before predict")
+        flat = [f for sentence in X for f in sentence]
+        if not flat:
+            return [[] for _ in X]
+        probs = self.model_.predict_proba(self.vectorizer_.transform(flat))
+        rows = [dict(zip(self.labels_, map(float, row))) for row in probs]
+        out, position = [], 0
+        for sentence in X:
+            out.append(rows[position : position + len(sentence)])
+            position += len(sentence)
+        return out
+
+    def predict(self, X: Sequence[Sentence]) -> list[list[str]]:
+        """The most probable tag per token, with I- after O repaired to B-."""
+        return [_repair([max(p, key=p.get) for p in sentence]) for sentence in self._token_probabilities(X)]
+
+    def predict_spans(self, X: Sequence[Sentence]) -> list[list[SpanGuess]]:
+        out = []
+        for probs in self._token_probabilities(X):
+            tags = _repair([max(p, key=p.get) for p in probs])
+            out.append([s for s in _spans_with_probabilities(tags, probs) if s[3] >= self.threshold])
+        return out
+
+
+def _repair(tags: list[str]) -> list[str]:
+    """Make a tag sequence valid BIO: an I- that does not continue its label becomes B-."""
+    fixed = []
+    for i, tag in enumerate(tags):
+        if tag.startswith("I-") and (i == 0 or fixed[-1] == "O" or fixed[-1][2:] != tag[2:]):
+            tag = "B-" + tag[2:]
+        fixed.append(tag)
+    return fixed

@@ -1,0 +1,158 @@
+"""The two stages of extraction and their interchangeable implementations.
+
+A trigger finder maps a parsed sentence to trigger token ranges with a
+probability; a role labeller maps a sentence and one trigger to role token
+ranges with a probability. Any finder combines with any labeller. Learned
+stages are trained on gold triggers; at prediction time they see predicted ones.
+
+Shapes (token ranges are ``[first, end)``):
+
+- gold triggers: ``list[list[(first, end)]]``, one list per sentence;
+- gold roles: ``list[list[list[(first, end, role)]]]``, per sentence, per trigger;
+- predictions add a probability as the last item of each tuple.
+"""
+
+from __future__ import annotations
+
+from typing import Sequence
+
+import numpy as np
+from sklearn.base import BaseEstimator
+from sklearn.feature_extraction import DictVectorizer
+from sklearn.linear_model import LogisticRegression
+from spacy.tokens import Doc
+
+from trainer.features.extract import Featurizer
+from trainer.features.groups import governing_preposition
+from trainer.models.candidates import candidate_phrases
+from trainer.models.sequence import CRFTagger, LogisticTagger
+from trainer.parsing.align import bio_tags
+
+TokenRange = tuple[int, int]
+TRIGGER_LABEL = "TRIGGER"
+NONE_LABEL = "none"
+
+
+class SequenceTriggerFinder:
+    """Trigger finding as BIO tagging of tokens with a CRF or logistic tagger."""
+
+    def __init__(self, tagger: CRFTagger | LogisticTagger, featurizer: Featurizer) -> None:
+        self.tagger = tagger
+        self.featurizer = featurizer
+
+    def fit(self, docs: Sequence[Doc], triggers: Sequence[list[TokenRange]]) -> "SequenceTriggerFinder":
+        X = [self.featurizer.token_features(d) for d in docs]
+        y = [bio_tags(d, [(t, TRIGGER_LABEL) for t in ts]) for d, ts in zip(docs, triggers)]
+        self.tagger.fit(X, y)
+        return self
+
+    def predict(self, docs: Sequence[Doc]) -> list[list[tuple[int, int, float]]]:
+        guesses = self.tagger.predict_spans([self.featurizer.token_features(d) for d in docs])
+        return [[(first, end, p) for first, end, _, p in sentence] for sentence in guesses]
+
+
+class SequenceRoleLabeller:
+    """Role labelling as BIO tagging of the sentence, one sequence per trigger."""
+
+    def __init__(self, tagger: CRFTagger | LogisticTagger, featurizer: Featurizer) -> None:
+        self.tagger = tagger
+        self.featurizer = featurizer
+
+    def _sequences(self, docs: Sequence[Doc], triggers: Sequence[Sequence[TokenRange]]) -> list[list[dict]]:
+        out = []
+        for doc, sentence_triggers in zip(docs, triggers):
+            base = self.featurizer.token_features(doc) if sentence_triggers else []
+            out.extend(self.featurizer.role_features(doc, tuple(t[:2]), base) for t in sentence_triggers)
+        return out
+
+    def fit(self, docs, triggers, roles) -> "SequenceRoleLabeller":
+        X = self._sequences(docs, triggers)
+        y = [bio_tags(doc, [((f, e), r) for f, e, r in event_roles])
+             for doc, doc_roles in zip(docs, roles) for event_roles in doc_roles]
+        self.tagger.fit(X, y)
+        return self
+
+    def predict(self, docs, triggers) -> list[list[list[tuple[int, int, str, float]]]]:
+        flat = iter(self.tagger.predict_spans(self._sequences(docs, triggers)) if any(triggers) else [])
+        return [[next(flat) for _ in sentence_triggers] for sentence_triggers in triggers]
+
+
+class CandidateRoleLinker(BaseEstimator):
+    """Role labelling as classification of (candidate phrase, trigger) pairs with logistic regression.
+
+    Candidates are noun phrases, proper-noun runs, pronouns and gazetteer names
+    (:func:`candidate_phrases`); each pair is labelled none or one role. Gold
+    spans that match no candidate cannot be learned; their count is kept in
+    ``unreachable_``.
+    """
+
+    def __init__(self, *, featurizer: Featurizer | None = None, C: float = 1.0, class_weight: str = "none",
+                 max_iterations: int = 1000, threshold: float = 0.0, random_state: int = 0) -> None:
+        self.featurizer = featurizer
+        self.C = C
+        self.class_weight = class_weight
+        self.max_iterations = max_iterations
+        self.threshold = threshold
+        self.random_state = random_state
+
+    def _pairs(self, doc: Doc, trigger: TokenRange, base: list[dict]) -> tuple[list[TokenRange], list[dict]]:
+        token_rel = self.featurizer.role_features(doc, trigger, base)
+        spans, rows = [], []
+        for first, end, kind in candidate_phrases(doc, self.featurizer.gazetteer):
+            if first < trigger[1] and trigger[0] < end:
+                continue
+            root = doc[first:end].root
+            row = {f"root:{k}": v for k, v in token_rel[root.i].items()}
+            row.update({
+                "kind": kind, "length": str(min(end - first, 5)), "first_lower": doc[first].lower_,
+                "gov_prep": governing_preposition(root) or "-", "before_trigger": end <= trigger[0],
+                "first_pos": doc[first].pos_, "path_kind": f"{row.get('root:t_path', '-')}|{kind}",
+            })
+            spans.append((first, end))
+            rows.append(row)
+        return spans, rows
+
+    def _all_pairs(self, docs, triggers):
+        for doc, sentence_triggers in zip(docs, triggers):
+            base = self.featurizer.token_features(doc) if sentence_triggers else []
+            for trigger in sentence_triggers:
+                yield self._pairs(doc, tuple(trigger[:2]), base)
+
+    def fit(self, docs, triggers, roles) -> "CandidateRoleLinker":
+        rows, labels, self.unreachable_ = [], [], 0
+        gold_iter = (event_roles for doc_roles in roles for event_roles in doc_roles)
+        for (spans, pair_rows), event_roles in zip(self._all_pairs(docs, triggers), gold_iter):
+            gold = {(f, e): r for f, e, r in reversed(event_roles)}
+            self.unreachable_ += len(set(gold) - set(spans))
+            rows.extend(pair_rows)
+            labels.extend(gold.get(span, NONE_LABEL) for span in spans)
+        self.vectorizer_ = DictVectorizer(sort=True)
+        self.model_ = LogisticRegression(
+            C=self.C, class_weight=None if self.class_weight == "none" else self.class_weight,
+            max_iter=self.max_iterations, random_state=self.random_state,
+        )
+        self.model_.fit(self.vectorizer_.fit_transform(rows), labels)
+        return self
+
+    def predict(self, docs, triggers) -> list[list[list[tuple[int, int, str, float]]]]:
+        classes = list(self.model_.classes_)
+        flat = []
+        for spans, rows in self._all_pairs(docs, triggers):
+            chosen = []
+            if rows:
+                for span, probs in zip(spans, self.model_.predict_proba(self.vectorizer_.transform(rows))):
+                    best = int(np.argmax(probs))
+                    if classes[best] != NONE_LABEL and probs[best] >= self.threshold:
+                        chosen.append((span[0], span[1], classes[best], float(probs[best])))
+            flat.append(_drop_overlaps(chosen))
+        it = iter(flat)
+        return [[next(it) for _ in sentence_triggers] for sentence_triggers in triggers]
+
+
+def _drop_overlaps(chosen: list[tuple[int, int, str, float]]) -> list[tuple[int, int, str, float]]:
+    """Keep the most probable of overlapping candidates (nested phrases compete)."""
+    kept: list[tuple[int, int, str, float]] = []
+    for guess in sorted(chosen, key=lambda g: -g[3]):
+        if all(guess[1] <= k[0] or k[1] <= guess[0] for k in kept):
+            kept.append(guess)
+    return sorted(kept)
