@@ -33,6 +33,7 @@ class ParserConfig:
     use_cache: bool = True
     batch_size: int = 64
     workers: int = 1
+    conllu: str = ""  # a CoNLL-U file whose sentences (by sent_id = record id) replace the pipeline's parses
 
 
 @dataclass
@@ -165,4 +166,17 @@ def load_config(path: Path | str | None) -> ExperimentConfig:
     except tomllib.TOMLDecodeError as exc:
         raise ConfigError(f"{path}: not valid TOML ({exc})", "fix the syntax at the position given") from None
     data.setdefault("name", path.stem)
-    return config_from_dict(data, str(path))
+    config = config_from_dict(data, str(path))
+    _resolve_paths(config, path.resolve().parent)
+    return config
+
+
+def _resolve_paths(config: ExperimentConfig, base: Path) -> None:
+    """Make the data-file paths a config names relative to the config's own folder."""
+    features = config.features
+    if features.gazetteer:
+        features.gazetteer = str((base / features.gazetteer).resolve())
+    for item in fields(features.lexicons):
+        value = getattr(features.lexicons, item.name)
+        if value:
+            setattr(features.lexicons, item.name, str((base / value).resolve()))

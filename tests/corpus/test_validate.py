@@ -1,0 +1,107 @@
+"""Validation: one file with one of each error and warning, reported with file, line and field."""
+
+from __future__ import annotations
+
+import json
+
+import pytest
+
+from trainer.corpus.reader import read_corpus, skipped_summary
+from trainer.corpus.validate import check_files
+from trainer.errors import CorpusError, UnreadableInputError
+
+GOOD = {"id": "ok-1", "doc": "d", "text": "We left Caddow.", "events": [{"trigger": [3, 7], "roles": [{"role": "mover", "span": [0, 2]}]}]}
+
+
+def line(**changes):
+    record = json.loads(json.dumps(GOOD))
+    record.update(changes)
+    return json.dumps(record)
+
+
+def ev(trigger, *roles):
+    return [{"trigger": trigger, "roles": [{"role": r, "span": s} for r, s in roles]}]
+
+
+# One line per listed error; the expected (line, field, message start) is beside each.
+BAD_LINES = [
+    (line(), None),
+    ('{"id": "broken", "doc": "d", "text": ', ("record", "malformed JSON")),
+    (json.dumps({"id": "m1", "text": "We left."}), ("doc", "missing")),
+    (line(id="t1", text=7), ("text", "must be a string, got int")),
+    (line(id="o1", events=ev([3, 70])), ("events[0].trigger", "[3, 70] is out of range")),
+    (line(id="r1", events=ev([7, 3])), ("events[0].trigger", "[7, 3] is reversed")),
+    (line(id="e1", events=ev([3, 7], ("mover", [2, 2]))), ("events[0].roles[0].span", "[2, 2] is an empty span")),
+    (line(), ("id", "duplicate id 'ok-1'")),
+    (line(id="u1", events=ev([3, 7], ("vehicle", [0, 2]))), ("events[0].roles[0].role", "unknown role 'vehicle'")),
+    (line(id="w1", events="none"), ("events", "must be a list, got str")),
+    (line(id="f1", events=ev(["3", 7])), ("events[0].trigger", "must be [start, end] with two integers")),
+]
+
+
+@pytest.fixture
+def bad_file(tmp_path):
+    path = tmp_path / "bad.jsonl"
+    path.write_text("\n".join(text for text, _ in BAD_LINES) + "\n", encoding="utf-8")
+    return path
+
+
+def test_each_error_is_reported_with_file_line_and_field(bad_file):
+    result = check_files([bad_file])
+    found = [(p.line, p.field, p.message) for p in result.errors]
+    expected = [(n, exp[0], exp[1]) for n, (_, exp) in enumerate(BAD_LINES, start=1) if exp]
+    assert [(n, f) for n, f, _ in found] == [(n, f) for n, f, _ in expected]
+    for (_, _, message), (_, _, start) in zip(found, expected):
+        assert message.startswith(start), message
+    assert result.bad_records == len(expected)
+    assert [r.id for _, _, r in result.records] == ["ok-1"]
+    assert str(result.errors[0]).startswith(f"{bad_file}:2: record: malformed JSON")
+    assert "hint:" in str(result.errors[0])
+
+
+def test_warnings_keep_the_record(tmp_path):
+    text = "We left Caddow, crossed the Aun."
+    events = [
+        {"trigger": [3, 7], "roles": [{"role": "mover", "span": [0, 2]}, {"role": "source", "span": [7, 15]}]},  # leading space
+        {"trigger": [3, 7], "roles": [{"role": "mover", "span": [0, 2]}, {"role": "source", "span": [7, 15]}]},  # duplicate event
+        {"trigger": [16, 23], "roles": [{"role": "mover", "span": [24, 31]}, {"role": "path", "span": [24, 31]}]},  # mover = place
+        {"trigger": [17, 23], "roles": []},  # cuts 'crossed'
+    ]
+    path = tmp_path / "w.jsonl"
+    path.write_text(json.dumps({"id": "w", "doc": "d", "text": text, "events": events}) + "\n", encoding="utf-8")
+    result = check_files([path])
+    assert not result.errors and len(result.records) == 1
+    messages = [p.field + ": " + p.message for p in result.warnings]
+    assert any("events[0].roles[1].span: span ' Caddow,'" in m and "whitespace or punctuation" in m for m in messages)
+    assert "events[1]: repeats events[0] exactly" in messages
+    assert "events[2].roles: the mover 'the Aun' is also marked as a place" in messages
+    assert any(m.startswith("events[3].trigger: span 'rossed' cuts through a word") for m in messages)
+
+
+def test_reading_for_training_refuses_errors_unless_asked_to_skip(bad_file):
+    with pytest.raises(CorpusError) as raised:
+        read_corpus([bad_file])
+    assert "10 error(s) in 10 record(s)" in str(raised.value)
+    assert "--skip-bad" in str(raised.value)
+    corpus = read_corpus([bad_file], skip_bad=True)
+    assert [r.id for r in corpus.records] == ["ok-1"]
+    summary = skipped_summary(corpus)
+    assert summary.splitlines()[-1] == "10 record(s) skipped"
+    assert f"skipped {bad_file}:4 (id t1): text: must be a string" in summary
+
+
+def test_unreadable_files_raise_with_exit_code_2(tmp_path):
+    with pytest.raises(UnreadableInputError) as missing:
+        check_files([tmp_path / "nope.jsonl"])
+    assert missing.value.exit_code == 2
+    latin = tmp_path / "latin.jsonl"
+    latin.write_bytes('{"id": "a", "doc": "d", "text": "caf\xe9"}\n'.encode("latin-1"))
+    with pytest.raises(UnreadableInputError, match="not UTF-8"):
+        check_files([latin])
+
+
+def test_role_inventory_is_configurable(tmp_path):
+    path = tmp_path / "v.jsonl"
+    path.write_text(line(events=ev([3, 7], ("vehicle", [0, 2]))) + "\n", encoding="utf-8")
+    assert check_files([path], roles=("mover", "vehicle")).errors == []
+    assert check_files([path]).errors[0].message == "unknown role 'vehicle'"

@@ -1,0 +1,73 @@
+"""Model files: digest checked before unpickling; tampered, truncated and foreign files refused."""
+
+from __future__ import annotations
+
+import pytest
+
+from trainer.errors import ModelFileError
+from trainer.models import persist
+from trainer.models.persist import digest_path, load_model, read_metadata, save_model
+
+
+@pytest.fixture
+def model_file(tmp_path):
+    path = tmp_path / "m.itin"
+    save_model({"weights": [1, 2, 3]}, path, {"kind": "test", "roles": ["mover"]})
+    return path
+
+
+def test_round_trip_keeps_model_and_metadata(model_file):
+    loaded = load_model(model_file)
+    assert loaded.model == {"weights": [1, 2, 3]}
+    assert loaded.metadata["kind"] == "test"
+    assert loaded.metadata["format_version"] == persist.FORMAT_VERSION
+    assert set(persist.TRACKED_PACKAGES) <= set(loaded.metadata["versions"])
+    assert digest_path(model_file).read_text().split()[1] == "m.itin"
+
+
+def test_changed_bytes_fail_with_the_digest_message(model_file):
+    data = bytearray(model_file.read_bytes())
+    data[-10] ^= 0xFF
+    model_file.write_bytes(bytes(data))
+    with pytest.raises(ModelFileError, match="SHA-256 digest mismatch"):
+        load_model(model_file)
+
+
+def test_truncated_file_is_refused(model_file):
+    model_file.write_bytes(model_file.read_bytes()[:50])
+    with pytest.raises(ModelFileError, match="digest mismatch"):
+        load_model(model_file)
+
+
+def test_missing_digest_and_foreign_files_are_refused(tmp_path, model_file):
+    digest_path(model_file).unlink()
+    with pytest.raises(ModelFileError, match="no readable digest file"):
+        load_model(model_file)
+    foreign = tmp_path / "foreign.itin"
+    foreign.write_bytes(b"\x80\x04K\x01.")  # a pickle, but not ours
+    import hashlib
+
+    digest_path(foreign).write_text(hashlib.sha256(foreign.read_bytes()).hexdigest() + "  foreign.itin\n")
+    with pytest.raises(ModelFileError, match="not an itinerant model file"):
+        read_metadata(foreign)
+
+
+def test_version_mismatch_warns(model_file, monkeypatch):
+    real = persist.library_versions()
+    monkeypatch.setattr(persist, "library_versions", lambda: {**real, "scikit-learn": "0.0.1"})
+    with pytest.warns(UserWarning, match=r"scikit-learn .* -> 0.0.1"):
+        load_model(model_file)
+
+
+def test_interrupted_write_leaves_the_old_file_intact(model_file, monkeypatch):
+    before = model_file.read_bytes()
+
+    def explode(*args, **kwargs):
+        raise KeyboardInterrupt
+
+    monkeypatch.setattr(persist.os, "fsync", explode)
+    with pytest.raises(KeyboardInterrupt):
+        save_model({"weights": "new"}, model_file, {"kind": "test"})
+    assert model_file.read_bytes() == before
+    assert sorted(p.name for p in model_file.parent.iterdir()) == ["m.itin", "m.itin.sha256"]
+    assert load_model(model_file).model == {"weights": [1, 2, 3]}
