@@ -166,6 +166,30 @@ def extract(
         say(f"event table written to {table}")
 
 
+DEMO_DATA = Path(__file__).resolve().parent.parent / "demo_annotations"
+DEMO_CONFIGS = Path(__file__).resolve().parent.parent / "configs"
+
+
+@app.command()
+@user_errors
+def demo(
+    data: Annotated[Path, typer.Option(help="The demo corpus folder.")] = DEMO_DATA,
+    configs: Annotated[Path, typer.Option(help="Folder of the ready configs.")] = DEMO_CONFIGS,
+    output: Annotated[Path, typer.Option("--output", "-o", help="Where the demo writes its results.")] = Path("runs/demo"),
+) -> None:
+    """Run the main job on the demo corpus: check, train, extract from the unannotated chapter."""
+    say(f"== 1. checking the annotations in {data}")
+    check([data / "train", data / "test"], roles=None, lemmas=True, pipeline=None, strict=False)
+    say("\n== 2. training the default extractor")
+    model = output / "model.itin"
+    fit([data / "train"], output=model, config=configs / "default.toml", skip_bad=False)
+    say("\n== 3. extracting motion events from the unannotated chapter")
+    chapter = data / "unannotated" / "delacott-survey-3.txt"
+    extract(model, chapter, output=output / "chapter.jsonl", table=output / "chapter-events.tsv",
+            input_format="text", doc=None, batch_size=256)
+    say(f"\nresults are in {output}/")
+
+
 def main() -> None:  # pragma: no cover - console entry point
     app()
 
