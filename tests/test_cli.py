@@ -1,0 +1,101 @@
+"""The command line, driven through typer's CliRunner: exit codes, messages, files written."""
+
+from __future__ import annotations
+
+import json
+
+import pytest
+from typer.testing import CliRunner
+
+from trainer.cli import app
+
+runner = CliRunner()
+
+
+def write(path, *objs):
+    path.write_text("".join(json.dumps(o) + "\n" for o in objs), encoding="utf-8")
+    return path
+
+
+GOOD = {"id": "a", "doc": "d", "text": "We left Caddow.", "events": [{"trigger": [3, 7], "roles": [{"role": "mover", "span": [0, 2]}]}]}
+
+
+def test_check_clean_file_exits_0_and_prints_statistics(tmp_path):
+    result = runner.invoke(app, ["check", str(write(tmp_path / "a.jsonl", GOOD)), "--no-lemmas"])
+    assert result.exit_code == 0, result.output
+    assert "records: 1 in 1 doc(s)" in result.output
+    assert "0 error(s) in 0 record(s), 0 warning(s)" in result.output
+
+
+def test_check_errors_exit_1_with_file_and_line(tmp_path):
+    path = write(tmp_path / "b.jsonl", GOOD, {**GOOD, "id": "b", "doc": 3})
+    result = runner.invoke(app, ["check", str(path), "--no-lemmas"])
+    assert result.exit_code == 1
+    assert f"{path}:2: doc: must be a string, got int" in result.output
+    assert "1 error(s) in 1 record(s)" in result.output
+
+
+def test_check_unreadable_exits_2_without_traceback(tmp_path):
+    result = runner.invoke(app, ["check", str(tmp_path / "missing.jsonl")])
+    assert result.exit_code == 2
+    assert "no such file" in result.output
+    assert "Traceback" not in result.output
+
+
+def test_check_strict_turns_warnings_into_exit_1(tmp_path):
+    warned = {**GOOD, "events": [{"trigger": [2, 7], "roles": []}]}  # ' left' starts with a space
+    path = write(tmp_path / "w.jsonl", warned)
+    assert runner.invoke(app, ["check", str(path), "--no-lemmas"]).exit_code == 0
+    assert runner.invoke(app, ["check", str(path), "--no-lemmas", "--strict"]).exit_code == 1
+
+
+def test_convert_round_trip_through_columns(tmp_path):
+    source = write(tmp_path / "a.jsonl", GOOD)
+    columns = tmp_path / "a.cols"
+    assert runner.invoke(app, ["convert", str(source), "-o", str(columns), "--from", "jsonl", "--to", "columns"]).exit_code == 0
+    back = tmp_path / "back.jsonl"
+    assert runner.invoke(app, ["convert", str(columns), "-o", str(back), "--from", "columns", "--to", "jsonl"]).exit_code == 0
+    assert json.loads(back.read_text()) == GOOD
+
+
+def test_convert_unknown_format_is_a_clear_error(tmp_path):
+    result = runner.invoke(app, ["convert", str(write(tmp_path / "a.jsonl", GOOD)), "-o", str(tmp_path / "x"), "--to", "brat"])
+    assert result.exit_code == 2
+    assert "unknown output format 'brat'" in result.output
+
+
+def test_fit_refuses_a_corpus_with_errors_unless_skipping(tmp_path):
+    path = write(tmp_path / "bad.jsonl", GOOD, {"id": "x", "text": "no doc"})
+    refused = runner.invoke(app, ["fit", str(path), "-o", str(tmp_path / "m.itin")])
+    assert refused.exit_code == 1
+    assert "--skip-bad" in refused.output
+
+
+@pytest.mark.slow
+def test_fit_then_extract_on_a_small_corpus(tmp_path, demo_train):
+    config = tmp_path / "quick.toml"
+    config.write_text(f'[parser]\ncache_dir = "{tmp_path / "cache"}"\n[trigger_model]\nmax_iterations = 20\n'
+                      '[role_model]\nkind = "logistic"\n', encoding="utf-8")
+    model = tmp_path / "m.itin"
+    fitted = runner.invoke(app, ["fit", str(demo_train / "quarne-salt-1.jsonl"), "-c", str(config), "-o", str(model)])
+    assert fitted.exit_code == 0, fitted.output
+    assert (tmp_path / "m.itin.sha256").exists()
+    text = tmp_path / "book.txt"
+    text.write_text("We left Quillon at dawn.\n\nThe road runs north.\n", encoding="utf-8")
+    out, table = tmp_path / "out.jsonl", tmp_path / "events.tsv"
+    extracted = runner.invoke(app, ["extract", str(model), str(text), "-o", str(out), "--table", str(table)])
+    assert extracted.exit_code == 0, extracted.output
+    records = [json.loads(line) for line in out.read_text().splitlines()]
+    assert [r["text"] for r in records] == ["We left Quillon at dawn.", "The road runs north."]
+    assert table.read_text().splitlines()[0].startswith("id\tdoc\tstatus")
+
+
+def test_extract_refuses_a_tampered_model(tmp_path):
+    from trainer.models.persist import save_model
+
+    model = tmp_path / "m.itin"
+    save_model({"not": "an extractor"}, model, {"kind": "x"})
+    model.write_bytes(model.read_bytes() + b"x")
+    result = runner.invoke(app, ["extract", str(model), str(tmp_path / "in.txt"), "-o", str(tmp_path / "o.jsonl")])
+    assert result.exit_code == 2
+    assert "SHA-256 digest mismatch" in result.output
