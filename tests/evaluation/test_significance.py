@@ -1,0 +1,105 @@
+"""Paired approximate randomization: hand cases, scipy's exact permutation test, one path for every F1."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from evaluation_samples import ROLES
+from scipy.stats import permutation_test
+
+from trainer.errors import ConfigError, CorpusError
+from trainer.evaluation.scoring import Counts, f1_names, scores_from_counts
+from trainer.evaluation.significance import compare_f1s, paired_randomization
+
+
+def total_tp(units: list) -> float:
+    return float(sum(u["mover"].tp for u in units))
+
+
+def micro_f1(units: list) -> float:
+    return scores_from_counts(units, ROLES).micro.f1
+
+
+def two_systems(n: int, seed: int) -> tuple[list[dict[str, Counts]], list[dict[str, Counts]]]:
+    """Per-unit counts of two systems on the same gold (tp + fn equal per unit and key)."""
+    rng = np.random.default_rng(seed)
+    a, b = [], []
+    for _ in range(n):
+        unit_a, unit_b = {}, {}
+        for key in ("mover", "destination", "trigger"):
+            gold = int(rng.integers(1, 8))
+            tp_a, tp_b = int(rng.integers(0, gold + 1)), int(rng.integers(0, gold + 1))
+            unit_a[key] = Counts(tp_a, int(rng.integers(0, 4)), gold - tp_a)
+            unit_b[key] = Counts(tp_b, int(rng.integers(0, 4)), gold - tp_b)
+        a.append(unit_a)
+        b.append(unit_b)
+    return a, b
+
+
+def test_hand_case_exact_enumeration() -> None:
+    # A finds 1 per unit, B none; a swap flips that unit's sign, so the difference is a sum of three +-1s.
+    # |difference| = 3 only when no unit or every unit is swapped: 2 of the 8 swap patterns, p = 2/8.
+    a = [{"mover": Counts(1, 0, 0)}] * 3
+    b = [{"mover": Counts(0, 0, 1)}] * 3
+    assert paired_randomization(a, b, statistic=total_tp, exact=True) == (3.0, 0.25)
+    observed, p = paired_randomization(a, b, statistic=total_tp, trials=9999, seed=13)
+    assert observed == 3.0
+    assert p == pytest.approx(0.25, abs=0.02)
+    assert (p * 10000) % 1 == pytest.approx(0.0)  # p = (count + 1) / (trials + 1)
+
+
+def test_identical_systems_are_not_different() -> None:
+    a, _ = two_systems(5, seed=1)
+    assert paired_randomization(a, a, statistic=micro_f1, trials=99) == (0.0, 1.0)
+    assert paired_randomization(a, a, statistic=micro_f1, exact=True) == (0.0, 1.0)
+
+
+def test_exact_mode_equals_scipy_permutation_test() -> None:
+    # Reference: scipy.stats.permutation_test(permutation_type="samples"), which for paired samples swaps
+    # x_i and y_i; with 2**8 = 256 <= n_resamples it enumerates every swap pattern exactly. Its two-sided
+    # p-value, 2 * min(P(D <= d), P(D >= d)), equals P(|D| >= |d|) here because swapping every unit
+    # negates the difference, so the null distribution is symmetric.
+    a, b = two_systems(8, seed=5)  # A ahead by 0.228 micro F1; exact p = 16/256 = 0.0625
+    units = a + b
+
+    def difference(x: np.ndarray, y: np.ndarray) -> float:
+        return micro_f1([units[i] for i in x]) - micro_f1([units[i] for i in y])
+
+    reference = permutation_test((np.arange(8), np.arange(8, 16)), difference, permutation_type="samples",
+                                 vectorized=False, n_resamples=9999, alternative="two-sided")
+    observed, p = paired_randomization(a, b, statistic=micro_f1, exact=True)
+    assert observed == pytest.approx(reference.statistic)
+    assert p == pytest.approx(reference.pvalue, abs=1e-12)
+    assert p == 16 / 256
+    # The randomized test estimates the same p-value: Monte Carlo SE at 9999 trials is at most 0.005.
+    # (compare_f1s draws the same swaps as paired_randomization, checked below, and is vectorised.)
+    ids = [f"doc{i}" for i in range(8)]
+    _, p_random = compare_f1s(dict(zip(ids, a)), dict(zip(ids, b)), ROLES, trials=9999, seed=13)["micro"]
+    assert p_random == pytest.approx(p, abs=0.02)
+
+
+def test_vectorised_helper_equals_the_generic_test() -> None:
+    a, b = two_systems(6, seed=7)
+    ids = [f"doc{i}" for i in range(6)]
+    fast = compare_f1s(dict(zip(ids, a)), dict(zip(ids, b)), ROLES, exact=True)
+    assert list(fast) == list(f1_names(ROLES))
+    for name in ("micro", "macro", "mover", "destination", "trigger", "unlinked:micro"):
+        def statistic(units: list, n: str = name) -> float:
+            return scores_from_counts(units, ROLES).f1s()[n]
+
+        assert fast[name] == pytest.approx(paired_randomization(a, b, statistic=statistic, exact=True), abs=1e-12)
+    random_fast = compare_f1s(dict(zip(ids, a)), dict(zip(ids, b)), ROLES, trials=300, seed=3)
+    assert random_fast["micro"] == pytest.approx(paired_randomization(a, b, statistic=micro_f1, trials=300, seed=3),
+                                                 abs=1e-12)
+
+
+def test_refusals() -> None:
+    a, b = two_systems(3, seed=1)
+    with pytest.raises(CorpusError, match=r"^system A has 3 units but system B has 2"):
+        paired_randomization(a, b[:2], statistic=micro_f1)
+    with pytest.raises(CorpusError, match=r"^the systems were scored on different units: \['x'\]"):
+        compare_f1s({"d": a[0], "x": a[1]}, {"d": b[0]}, ROLES)
+    with pytest.raises(CorpusError, match=r"^systems A and B count different gold instances in unit\(s\) \['d'\]"):
+        compare_f1s({"d": {"mover": Counts(1, 0, 0)}}, {"d": {"mover": Counts(0, 0, 0)}}, ROLES)
+    with pytest.raises(ConfigError, match=r"^exact=True enumerates 2\*\*21 swaps; at most 20 units allowed"):
+        paired_randomization(a * 7, b * 7, statistic=micro_f1, exact=True)

@@ -1,0 +1,144 @@
+"""Cross-validation: several configs trained and tested on the same document folds.
+
+Every sentence is parsed once per run (through the parse cache) and the same
+parses serve all folds and all configs. Each config yields held-out
+predictions for every annotated record, from the full pipeline and with the
+gold triggers given, plus per-fold timings. Scoring is a separate step
+(:mod:`trainer.evaluation.summary`), so predictions can be rescored later.
+"""
+
+from __future__ import annotations
+
+import time
+from dataclasses import dataclass, field
+from typing import Callable, Sequence
+
+from joblib import Parallel, delayed
+from spacy.language import Language
+from spacy.tokens import Doc
+
+from trainer.config import ExperimentConfig
+from trainer.corpus.records import Record
+from trainer.errors import ConfigError
+from trainer.evaluation.folds import FoldPlan
+from trainer.models.training import fit_extractor, parser_for
+from trainer.parsing.parse import parse_records
+
+Progress = Callable[[str], None]
+
+
+@dataclass
+class FoldOutput:
+    """Held-out predictions of one config on one fold."""
+
+    config: str
+    repeat: int
+    fold: int
+    predicted: list[Record]
+    predicted_gold_triggers: list[Record]
+    train_seconds: float
+    predict_seconds: float
+    train_records: int
+
+
+@dataclass
+class SystemRun:
+    """One config's held-out predictions over all folds (corpus order, per repeat)."""
+
+    name: str
+    config: ExperimentConfig
+    folds: list[FoldOutput] = field(default_factory=list)
+
+    def predictions(self, repeat: int = 0, *, gold_triggers: bool = False) -> list[Record]:
+        """All held-out predictions of one repeat, sorted by record id."""
+        out = [r for f in self.folds if f.repeat == repeat
+               for r in (f.predicted_gold_triggers if gold_triggers else f.predicted)]
+        return sorted(out, key=lambda r: r.id)
+
+
+@dataclass
+class CrossvalRun:
+    """Gold records, the fold plans and each config's held-out predictions."""
+
+    records: list[Record]
+    plans: list[FoldPlan]
+    systems: list[SystemRun]
+    parse_seconds: float
+    parsed: int
+    cached: int
+
+
+def _unique_names(configs: Sequence[ExperimentConfig]) -> list[str]:
+    names = [c.name for c in configs]
+    if len(set(names)) != len(names):
+        raise ConfigError(f"configs share a name: {names}", "give each config a distinct `name` (or file name)")
+    return names
+
+
+def _run_fold(config: ExperimentConfig, repeat: int, index: int, train: list[Record], train_docs: list[Doc],
+              test: list[Record], test_docs: list[Doc], nlp: Language) -> FoldOutput:
+    started = time.perf_counter()
+    trained = fit_extractor(train, config, nlp=nlp, docs=train_docs)
+    trained_at = time.perf_counter()
+    predicted = trained.extractor.predict(test, test_docs)
+    given = trained.extractor.predict(test, test_docs, gold_triggers=True)
+    return FoldOutput(config.name, repeat, index, predicted, given, trained_at - started,
+                      time.perf_counter() - trained_at, len(train))
+
+
+def run_crossval(
+    records: Sequence[Record],
+    configs: Sequence[ExperimentConfig],
+    plans: Sequence[FoldPlan],
+    *,
+    nlp: Language | None = None,
+    jobs: int = 1,
+    progress: Progress | None = None,
+) -> CrossvalRun:
+    """Train every config on every fold's training docs and predict its held-out docs.
+
+    All configs must use the same parser pipeline (so the same parses serve them all).
+    ``jobs`` runs folds and configs in parallel worker processes with joblib.
+    """
+    names = _unique_names(configs)
+    pipelines = {c.parser.pipeline for c in configs}
+    if len(pipelines) > 1:
+        raise ConfigError(f"configs use different parsers: {sorted(pipelines)}",
+                          "compare configs that share [parser] pipeline; run one crossval per parser")
+    annotated = [r for r in records if r.is_annotated]
+    nlp = nlp or parser_for(configs[0])
+    started = time.perf_counter()
+    docs, stats = parse_records(nlp, annotated, configs[0].parser)
+    parse_seconds = time.perf_counter() - started
+    by_doc: dict[str, list[int]] = {}
+    for i, record in enumerate(annotated):
+        by_doc.setdefault(record.doc, []).append(i)
+
+    def pick(doc_names: Sequence[str]) -> list[int]:
+        return sorted(i for d in doc_names for i in by_doc.get(d, []))
+
+    tasks = []
+    for config in configs:
+        for plan in plans:
+            for index, (train_names, test_names) in enumerate(plan.folds):
+                train_ids, test_ids = pick(train_names), pick(test_names)
+                tasks.append(delayed(_run_fold)(
+                    config, plan.repeat, index, [annotated[i] for i in train_ids], [docs[i] for i in train_ids],
+                    [annotated[i] for i in test_ids], [docs[i] for i in test_ids], nlp))
+    if progress:
+        progress(f"{len(annotated)} records parsed ({stats.cached} from cache) in {parse_seconds:.1f} s; "
+                 f"{len(tasks)} training runs ({len(configs)} config(s) x {sum(len(p.folds) for p in plans)} fold(s))")
+    outputs = Parallel(n_jobs=jobs, prefer="processes")(tasks) if jobs > 1 else _serial(tasks, progress)
+    systems = [SystemRun(name, config, [o for o in outputs if o.config == name]) for name, config in zip(names, configs)]
+    return CrossvalRun(annotated, list(plans), systems, parse_seconds, stats.parsed, stats.cached)
+
+
+def _serial(tasks: list, progress: Progress | None) -> list[FoldOutput]:
+    outputs = []
+    for number, (function, args, kwargs) in enumerate(tasks, start=1):
+        output = function(*args, **kwargs)
+        outputs.append(output)
+        if progress:
+            progress(f"[{number}/{len(tasks)}] {output.config} repeat {output.repeat} fold {output.fold}: "
+                     f"trained on {output.train_records} records in {output.train_seconds:.1f} s")
+    return outputs

@@ -1,0 +1,56 @@
+"""Learning curves: the same folds, trained on growing shares of each fold's training docs."""
+
+from __future__ import annotations
+
+import math
+from typing import Any, Sequence
+
+import numpy as np
+
+from trainer.config import ExperimentConfig
+from trainer.corpus.records import Record
+from trainer.errors import ConfigError
+from trainer.evaluation.crossval import Progress, run_crossval
+from trainer.evaluation.folds import FoldPlan
+from trainer.evaluation.summary import EvaluationSettings, pooled_counts
+
+DEFAULT_SHARES = (0.25, 0.5, 0.75, 1.0)
+
+
+def shrink_plan(plan: FoldPlan, share: float, *, seed: int) -> FoldPlan:
+    """The plan with each fold's training docs cut to ``share`` (at least one doc), test docs unchanged."""
+    rng = np.random.default_rng([seed, plan.repeat, round(share * 1000)])
+    folds = []
+    for train, test in plan.folds:
+        keep = max(1, math.ceil(share * len(train)))
+        chosen = sorted(train[i] for i in rng.permutation(len(train))[:keep])
+        folds.append((chosen, list(test)))
+    return FoldPlan(f"{plan.kind}@{share:g}", plan.seed, folds, plan.repeat)
+
+
+def learning_curve(
+    records: Sequence[Record], configs: Sequence[ExperimentConfig], plans: Sequence[FoldPlan], *,
+    shares: Sequence[float] = DEFAULT_SHARES, settings: EvaluationSettings | None = None,
+    jobs: int = 1, progress: Progress | None = None,
+) -> dict[str, Any]:
+    """Pooled F1 per config and share of training docs: ``{"shares": [...], "systems": {name: [point, ...]}}``."""
+    if not shares or any(not 0 < s <= 1 for s in shares):
+        raise ConfigError(f"shares must lie in (0, 1], got {list(shares)}", "e.g. --shares 0.25,0.5,0.75,1")
+    settings = settings or EvaluationSettings()
+    annotated = [r for r in records if r.is_annotated]
+    curve: dict[str, Any] = {"shares": sorted(shares), "systems": {c.name: [] for c in configs}}
+    for share in sorted(shares):
+        if progress:
+            progress(f"learning curve: {share:.0%} of the training docs")
+        shrunk = [shrink_plan(p, share, seed=settings.seed) for p in plans]
+        run = run_crossval(annotated, configs, shrunk, jobs=jobs, progress=progress)
+        for system in run.systems:
+            repeats = sorted({f.repeat for f in system.folds})
+            scores = pooled_counts(run.records, [system.predictions(r) for r in repeats],
+                                   roles=system.config.roles, mode=settings.mode).scores()
+            curve["systems"][system.name].append({
+                "share": share,
+                "train_records": round(float(np.mean([f.train_records for f in system.folds])), 1),
+                "f1": {name: round(value, 6) for name, value in scores.f1s().items()},
+            })
+    return curve

@@ -1,0 +1,130 @@
+"""Scoring a cross-validation run: pooled scores, spread across folds, intervals, tests, errors.
+
+Everything here is computed from gold records and held-out predictions, so a
+saved run's predictions can be rescored with another mode or seed.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from itertools import combinations
+from statistics import mean, pstdev
+from typing import Any, Sequence
+
+from trainer.corpus.records import Record
+from trainer.evaluation.bootstrap import bootstrap_f1s
+from trainer.evaluation.crossval import CrossvalRun, SystemRun
+from trainer.evaluation.error_analysis import ErrorAnalysis, error_analysis
+from trainer.evaluation.scoring import CorpusCounts, Scores, count_corpus
+from trainer.evaluation.significance import compare_f1s
+
+
+@dataclass
+class EvaluationSettings:
+    """How scores, intervals and tests are computed (recorded in every report)."""
+
+    mode: str = "exact"
+    bootstrap_samples: int = 1000
+    bootstrap_unit: str = "doc"
+    confidence: float = 0.95
+    seed: int = 13
+    trials: int = 9999
+
+    def to_dict(self) -> dict[str, Any]:
+        return dict(self.__dict__)
+
+
+@dataclass
+class SystemSummary:
+    """The evaluation of one config."""
+
+    name: str
+    scores: Scores
+    gold_trigger_scores: Scores
+    intervals: dict[str, tuple[float, float]]
+    fold_f1: dict[str, dict[str, Any]]
+    errors: ErrorAnalysis
+    counts: CorpusCounts = field(repr=False)
+    timings: dict[str, float] = field(default_factory=dict)
+
+
+@dataclass
+class Comparison:
+    """A paired test between two configs: ``(F1 of a - F1 of b, p-value)`` per score name."""
+
+    a: str
+    b: str
+    tests: dict[str, tuple[float, float]]
+
+
+@dataclass
+class RunSummary:
+    settings: EvaluationSettings
+    systems: list[SystemSummary]
+    comparisons: list[Comparison]
+
+
+def pooled_counts(gold: Sequence[Record], per_repeat: Sequence[Sequence[Record]], *, roles: Sequence[str],
+                  mode: str) -> CorpusCounts:
+    """Counts of every repeat's held-out predictions pooled; each record counts once per repeat."""
+    if len(per_repeat) == 1:
+        return count_corpus(gold, per_repeat[0], roles=roles, mode=mode)
+    by_record, doc_of, unannotated = {}, {}, []
+    for repeat, predicted in enumerate(per_repeat):
+        counts = count_corpus(gold, predicted, roles=roles, mode=mode)
+        for record_id, record_counts in counts.by_record.items():
+            by_record[f"{record_id}#{repeat}"] = record_counts
+            doc_of[f"{record_id}#{repeat}"] = counts.doc_of[record_id]
+        unannotated = counts.unannotated
+    return CorpusCounts(mode, tuple(roles), by_record, doc_of, unannotated)
+
+
+def fold_spread(run: CrossvalRun, system: SystemRun, *, roles: Sequence[str], mode: str) -> dict[str, dict[str, Any]]:
+    """Each F1 on every fold separately, with its mean and (population) standard deviation."""
+    gold_by_id = {r.id: r for r in run.records}
+    per_fold: list[dict[str, float]] = []
+    for fold in system.folds:
+        gold = [gold_by_id[r.id] for r in fold.predicted]
+        per_fold.append(count_corpus(gold, fold.predicted, roles=roles, mode=mode).scores().f1s())
+    names = list(per_fold[0]) if per_fold else []
+    return {name: {"mean": round(mean(f[name] for f in per_fold), 6),
+                   "std": round(pstdev(f[name] for f in per_fold), 6),
+                   "per_fold": [round(f[name], 6) for f in per_fold]} for name in names}
+
+
+def summarise_system(run: CrossvalRun, system: SystemRun, settings: EvaluationSettings) -> SystemSummary:
+    roles = system.config.roles
+    repeats = sorted({f.repeat for f in system.folds})
+    counts = pooled_counts(run.records, [system.predictions(r) for r in repeats], roles=roles, mode=settings.mode)
+    given = pooled_counts(run.records, [system.predictions(r, gold_triggers=True) for r in repeats],
+                          roles=roles, mode=settings.mode)
+    intervals = bootstrap_f1s(counts.units(by=settings.bootstrap_unit), roles, samples=settings.bootstrap_samples,
+                              seed=settings.seed, confidence=settings.confidence)
+    return SystemSummary(
+        name=system.name,
+        scores=counts.scores(),
+        gold_trigger_scores=given.scores(),
+        intervals=intervals,
+        fold_f1=fold_spread(run, system, roles=roles, mode=settings.mode),
+        errors=error_analysis(run.records, system.predictions(repeats[0]), roles=roles),
+        counts=counts,
+        timings={"train_seconds": round(sum(f.train_seconds for f in system.folds), 2),
+                 "predict_seconds": round(sum(f.predict_seconds for f in system.folds), 2)},
+    )
+
+
+def compare_systems(systems: Sequence[SystemSummary], settings: EvaluationSettings) -> list[Comparison]:
+    """A paired approximate randomization test, by document, for every pair of configs."""
+    out = []
+    for a, b in combinations(systems, 2):
+        tests = compare_f1s(a.counts.units(by="doc"), b.counts.units(by="doc"), a.scores.roles,
+                            trials=settings.trials, seed=settings.seed)
+        out.append(Comparison(a.name, b.name, tests))
+    return out
+
+
+def summarise(run: CrossvalRun, settings: EvaluationSettings | None = None) -> RunSummary:
+    """Score every config of a run and test every pair."""
+    settings = settings or EvaluationSettings()
+    systems = [summarise_system(run, system, settings) for system in run.systems]
+    return RunSummary(settings, systems, compare_systems(systems, settings))
