@@ -166,6 +166,137 @@ def extract(
         say(f"event table written to {table}")
 
 
+FoldsOption = Annotated[Optional[int], typer.Option("--folds", "-k", help="Number of grouped folds (default: the config's).")]
+SeedOption = Annotated[Optional[int], typer.Option(help="Seed for folds, bootstrap and tests (default: the config's).")]
+ModeOption = Annotated[Optional[str], typer.Option(help="Scoring mode: exact or overlap (default: the config's).")]
+
+
+def _settings(configs: list[Path], mode: str | None, seed: int | None, samples: int | None):
+    """Evaluation settings from the first config, with command-line overrides."""
+    from trainer.config import load_config
+    from trainer.evaluation.summary import EvaluationSettings
+
+    evaluation = load_config(configs[0] if configs else None).evaluation
+    return EvaluationSettings(mode=mode or evaluation.mode, seed=evaluation.seed if seed is None else seed,
+                              bootstrap_samples=samples or evaluation.bootstrap_samples,
+                              bootstrap_unit=evaluation.bootstrap_unit)
+
+
+def _fold_options(configs: list[Path], folds: int | None, repeats: int | None, seed: int | None,
+                  leave_one_out: bool, test_docs: str | None):
+    from trainer.config import load_config
+    from trainer.reports.runs import FoldOptions
+
+    evaluation = load_config(configs[0] if configs else None).evaluation
+    return FoldOptions(folds=folds or evaluation.folds, repeats=repeats or evaluation.repeats,
+                       seed=evaluation.seed if seed is None else seed, leave_one_doc_out=leave_one_out,
+                       test_docs=tuple(d.strip() for d in test_docs.split(",") if d.strip()) if test_docs else ())
+
+
+def _shares(value: str) -> list[float]:
+    from trainer.errors import ConfigError
+
+    try:
+        return [float(x) for x in value.split(",") if x.strip()]
+    except ValueError:
+        raise ConfigError(f"--shares {value!r} is not a list of numbers", "e.g. --shares 0.25,0.5,0.75,1") from None
+
+
+@app.command()
+@user_errors
+def crossval(
+    corpus: Annotated[list[Path], typer.Argument(help="Annotated JSONL files or folders.")],
+    config: Annotated[list[Path], typer.Option("--config", "-c", help="A config to compare; repeat for several.")] = [],
+    output: Annotated[Path, typer.Option("--output", "-o", help="Report folder.")] = Path("runs/crossval"),
+    folds: FoldsOption = None,
+    repeats: Annotated[Optional[int], typer.Option(help="Repeat the K folds with other shuffles.")] = None,
+    leave_one_doc_out: Annotated[bool, typer.Option("--leave-one-doc-out", help="One fold per doc.")] = False,
+    test_docs: Annotated[Optional[str], typer.Option(help="Fixed split: comma-separated docs to test on.")] = None,
+    test: Annotated[list[Path], typer.Option("--test", help="Fixed split: held-out test files (train on CORPUS).")] = [],
+    mode: ModeOption = None,
+    seed: SeedOption = None,
+    bootstrap: Annotated[Optional[int], typer.Option(help="Bootstrap samples per interval.")] = None,
+    shares: Annotated[Optional[str], typer.Option(help="Also a learning curve at these shares of training docs.")] = None,
+    jobs: Annotated[int, typer.Option("--jobs", "-j", help="Parallel worker processes for folds and configs.")] = 1,
+    skip_bad: Annotated[bool, typer.Option(help="Leave out records with errors (listed) instead of refusing.")] = False,
+) -> None:
+    """Cross-validate one or more configs on the same document folds and write a report folder."""
+    from trainer.reports.markdown import markdown_summary
+    from trainer.reports.runs import crossval_report
+
+    report = crossval_report(
+        corpus, config, output, fold_options=_fold_options(config, folds, repeats, seed, leave_one_doc_out, test_docs),
+        settings=_settings(config, mode, seed, bootstrap), test_paths=test, jobs=jobs,
+        curve_shares=_shares(shares) if shares else (), skip_bad=skip_bad, progress=say)
+    typer.echo(markdown_summary(report))
+    say(f"report written to {output}/ (report.json, summary.md, report.html, predictions/)")
+
+
+@app.command()
+@user_errors
+def curve(
+    corpus: Annotated[list[Path], typer.Argument(help="Annotated JSONL files or folders.")],
+    config: Annotated[list[Path], typer.Option("--config", "-c", help="A config; repeat for several.")] = [],
+    output: Annotated[Path, typer.Option("--output", "-o", help="Report folder.")] = Path("runs/curve"),
+    shares: Annotated[str, typer.Option(help="Shares of each fold's training docs.")] = "0.25,0.5,0.75,1",
+    folds: FoldsOption = None,
+    mode: ModeOption = None,
+    seed: SeedOption = None,
+    jobs: Annotated[int, typer.Option("--jobs", "-j", help="Parallel worker processes.")] = 1,
+) -> None:
+    """Learning curve: F1 per role as each fold's training docs grow; written with a full cross-validation report."""
+    from trainer.reports.markdown import markdown_summary
+    from trainer.reports.runs import crossval_report
+
+    report = crossval_report(corpus, config, output, fold_options=_fold_options(config, folds, None, seed, False, None),
+                             settings=_settings(config, mode, seed, None), jobs=jobs, curve_shares=_shares(shares),
+                             progress=say)
+    typer.echo(markdown_summary(report))
+    say(f"report with learning curve written to {output}/")
+
+
+@app.command()
+@user_errors
+def score(
+    gold: Annotated[Path, typer.Argument(help="Gold annotations (canonical JSONL).")],
+    predictions: Annotated[Path, typer.Argument(help="Any system's predictions in the canonical JSONL format.")],
+    mode: Annotated[str, typer.Option(help="exact or overlap.")] = "exact",
+    roles: RolesOption = None,
+    seed: Annotated[int, typer.Option(help="Bootstrap seed.")] = 13,
+    bootstrap: Annotated[int, typer.Option(help="Bootstrap samples per interval.")] = 1000,
+    output: Annotated[Optional[Path], typer.Option("--output", "-o", help="Also write score.json into this folder.")] = None,
+) -> None:
+    """Score predictions from any extractor against gold with itinerant's scorer."""
+    from trainer.evaluation.summary import EvaluationSettings
+    from trainer.reports.markdown import score_markdown
+    from trainer.reports.runs import score_report
+
+    settings = EvaluationSettings(mode=mode, seed=seed, bootstrap_samples=bootstrap)
+    report = score_report(gold, predictions, roles=_roles(roles), settings=settings, folder=output)
+    typer.echo(score_markdown(report))
+
+
+@app.command()
+@user_errors
+def contrast(
+    run_a: Annotated[Path, typer.Argument(help="A report folder written by `itinerant crossval`.")],
+    run_b: Annotated[Path, typer.Argument(help="Another report folder on the same corpus and folds.")],
+    system_a: Annotated[Optional[str], typer.Option(help="Config name in run A (default: its first).")] = None,
+    system_b: Annotated[Optional[str], typer.Option(help="Config name in run B (default: its first).")] = None,
+    trials: Annotated[int, typer.Option(help="Randomization trials.")] = 9999,
+    seed: Annotated[int, typer.Option(help="Seed of the randomization.")] = 13,
+) -> None:
+    """Paired significance test (approximate randomization by document) between two saved runs."""
+    from trainer.reports.runs import contrast_runs
+
+    result = contrast_runs(run_a, run_b, system_a=system_a, system_b=system_b, trials=trials, seed=seed)
+    a, b = result["a"], result["b"]
+    typer.echo(f"A = {a['system']} ({a['run']}), B = {b['system']} ({b['run']}), {result['mode']} match\n")
+    typer.echo("| score | F1(A) | F1(B) | A − B | p |\n|---|---:|---:|---:|---:|")
+    for name, test in result["tests"].items():
+        typer.echo(f"| {name} | {a['f1'][name]:.3f} | {b['f1'][name]:.3f} | {test['difference']:+.3f} | {test['p_value']:.4f} |")
+
+
 DEMO_DATA = Path(__file__).resolve().parent.parent / "demo_annotations"
 DEMO_CONFIGS = Path(__file__).resolve().parent.parent / "configs"
 

@@ -55,9 +55,9 @@ def _prepositional_objects(head: Token, max_steps: int = 3) -> list[Token]:
         if token.dep_ != "pobj":
             continue
         node, steps = token.head, 0
-        while node is not head and node.dep_ in {"prep", "pobj"} and steps < max_steps:
+        while node.i != head.i and node.dep_ in {"prep", "pobj"} and steps < max_steps:
             node, steps = node.head, steps + 1
-        if node is head:
+        if node.i == head.i:
             found.append(token)
     return found
 

@@ -1,0 +1,38 @@
+"""A run's report folder: JSON, Markdown, HTML and every config's held-out predictions."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Any, Sequence
+
+from trainer.corpus.jsonl import write_jsonl
+from trainer.evaluation.crossval import CrossvalRun
+from trainer.evaluation.summary import RunSummary
+from trainer.reports.html import html_report
+from trainer.reports.json_report import dump_json, report_dict, run_info
+from trainer.reports.markdown import markdown_summary
+
+REPORT_JSON = "report.json"
+RUN_INFO_JSON = "run-info.json"
+SUMMARY_MD = "summary.md"
+REPORT_HTML = "report.html"
+
+
+def write_report_folder(
+    folder: Path, run: CrossvalRun, summary: RunSummary, *, corpus_files: Sequence[str], seconds: float,
+    learning_curve: dict[str, Any] | None = None,
+) -> dict[str, Any]:
+    """Write the report folder and return the report data."""
+    folder.mkdir(parents=True, exist_ok=True)
+    report = report_dict(run, summary, corpus_files=corpus_files, learning_curve=learning_curve)
+    predictions = {}
+    for system in run.systems:
+        predicted = system.predictions()
+        predictions[system.name] = predicted
+        write_jsonl(predicted, folder / "predictions" / f"{system.name}.jsonl")
+        write_jsonl(system.predictions(gold_triggers=True), folder / "predictions" / f"{system.name}.gold-triggers.jsonl")
+    dump_json(report, folder / REPORT_JSON)
+    dump_json(run_info(run, summary, seconds), folder / RUN_INFO_JSON)
+    (folder / SUMMARY_MD).write_text(markdown_summary(report), encoding="utf-8")
+    (folder / REPORT_HTML).write_text(html_report(report, run.records, predictions), encoding="utf-8")
+    return report
