@@ -145,8 +145,25 @@ def _check_value(path: str, value: Any, source: str) -> None:
             raise ConfigError(f"{source}: unknown feature group(s) {unknown}", f"use some of: {', '.join(FEATURE_GROUPS)}")
     if path == "corpus.roles" and (not value or len(set(value)) != len(value)):
         raise ConfigError(f"{source}: 'corpus.roles' must be a non-empty list without repeats", "e.g. roles = [\"mover\", \"destination\"]")
+    if path.endswith(".search"):
+        _check_search(path, value, source)
     if path.endswith("threshold") and not 0.0 <= value <= 1.0:
         raise ConfigError(f"{source}: '{path}' must lie in [0, 1], got {value}", "a probability threshold")
+
+
+SEARCHABLE = ("c1", "c2", "max_iterations", "C", "threshold", "class_weight", "algorithm")
+
+
+def _check_search(path: str, grid: dict[str, Any], source: str) -> None:
+    """A search grid names model parameters and lists candidate values for each."""
+    for key, values in grid.items():
+        if key not in SEARCHABLE:
+            raise ConfigError(f"{source}: '{path}.{key}' is not a searchable parameter", f"search over: {', '.join(SEARCHABLE)}")
+        if not isinstance(values, list) or not values:
+            raise ConfigError(f"{source}: '{path}.{key}' must be a non-empty list of values", f"e.g. {key} = [0.01, 0.1]")
+        section = path.rsplit(".", 1)[0]
+        for value in values:
+            _check_value(f"{section}.{key}", value, source)
 
 
 def config_from_dict(data: dict[str, Any], source: str = "<config>") -> ExperimentConfig:

@@ -17,6 +17,7 @@ from trainer.corpus.records import Event, Record, RoleSpan
 from trainer.errors import ConfigError
 from trainer.features.extract import Featurizer
 from trainer.models.rules import RuleRoleLabeller, RuleTriggerFinder
+from trainer.models.search import f1_of_sets, search_stage
 from trainer.models.sequence import CRFTagger, LogisticTagger
 from trainer.models.stages import CandidateRoleLinker, SequenceRoleLabeller, SequenceTriggerFinder
 from trainer.parsing.align import AlignmentReport, span_to_tokens, tokens_to_span
@@ -73,7 +74,11 @@ def build_role_labeller(config: ModelConfig, featurizer: Featurizer):
 
 
 class MotionExtractor:
-    """Trigger finder plus role labeller, trained on gold triggers, applied to predicted ones."""
+    """Trigger finder plus role labeller, trained on gold triggers, applied to predicted ones.
+
+    When the config gives a search grid for a stage, the stage's parameters are
+    chosen first by inner folds over the training records (``search_results_``).
+    """
 
     def __init__(self, config: ExperimentConfig, featurizer: Featurizer) -> None:
         self.config = config
@@ -81,6 +86,27 @@ class MotionExtractor:
         self.trigger_finder = build_trigger_finder(config.trigger_model, featurizer)
         self.role_labeller = build_role_labeller(config.role_model, featurizer)
         self.alignment_: AlignmentReport | None = None
+        self.search_results_: dict[str, list[dict]] = {}
+
+    def _search(self, records: Sequence[Record], docs: Sequence[Doc], targets: GoldTargets) -> None:
+        def trigger_f1(candidate: ModelConfig, train: list[int], test: list[int]) -> float:
+            finder = build_trigger_finder(candidate, self.featurizer)
+            finder.fit([docs[i] for i in train], [targets.triggers[i] for i in train])
+            predicted = finder.predict([docs[i] for i in test])
+            return f1_of_sets([set(targets.triggers[i]) for i in test], [{t[:2] for t in p} for p in predicted])
+
+        def role_f1(candidate: ModelConfig, train: list[int], test: list[int]) -> float:
+            train = [i for i in train if targets.triggers[i]]
+            labeller = build_role_labeller(candidate, self.featurizer)
+            labeller.fit([docs[i] for i in train], [targets.triggers[i] for i in train], [targets.roles[i] for i in train])
+            predicted = labeller.predict([docs[i] for i in test], [targets.triggers[i] for i in test])
+            gold = [{(k, *r) for k, event in enumerate(targets.roles[i]) for r in event} for i in test]
+            return f1_of_sets(gold, [{(k, *r[:3]) for k, event in enumerate(p) for r in event} for p in predicted])
+
+        trigger_config, self.search_results_["trigger_model"] = search_stage(self.config.trigger_model, records, docs, trigger_f1)
+        role_config, self.search_results_["role_model"] = search_stage(self.config.role_model, records, docs, role_f1)
+        self.trigger_finder = build_trigger_finder(trigger_config, self.featurizer)
+        self.role_labeller = build_role_labeller(role_config, self.featurizer)
 
     def fit(self, records: Sequence[Record], docs: Sequence[Doc]) -> "MotionExtractor":
         """Train both stages on annotated records (negatives included; unannotated ones refused)."""
@@ -90,6 +116,8 @@ class MotionExtractor:
                               "train on annotated records only (records with an 'events' list)")
         targets = gold_targets(records, docs)
         self.alignment_ = targets.alignment
+        if self.config.trigger_model.search or self.config.role_model.search:
+            self._search(records, docs, targets)
         self.trigger_finder.fit(docs, targets.triggers)
         with_triggers = [i for i, ts in enumerate(targets.triggers) if ts]
         self.role_labeller.fit([docs[i] for i in with_triggers], [targets.triggers[i] for i in with_triggers],

@@ -1,0 +1,57 @@
+"""Hyperparameter search: inner folds from the training records only, best candidate kept."""
+
+from __future__ import annotations
+
+import pytest
+
+from trainer.config import ModelConfig, config_from_dict
+from trainer.corpus.records import Record
+from trainer.errors import ConfigError
+from trainer.models.search import f1_of_sets, inner_folds, search_stage
+
+
+def records(docs):
+    return [Record(f"{d}-{i}", d, "x", events=()) for d in docs for i in range(2)]
+
+
+def test_inner_folds_never_split_a_doc_and_cover_every_record_once():
+    recs = records(["a", "b", "c", "d", "e"])
+    folds = inner_folds(recs)
+    assert len(folds) == 3
+    held = [i for _, test in folds for i in test]
+    assert sorted(held) == list(range(len(recs)))
+    for train, test in folds:
+        assert {recs[i].doc for i in train}.isdisjoint({recs[i].doc for i in test})
+
+
+def test_search_keeps_the_best_candidate_and_reports_every_score():
+    config = ModelConfig(kind="logistic", search={"C": [0.1, 1.0, 10.0]})
+    seen_docs = set()
+
+    def evaluate(candidate, train, test):
+        seen_docs.update(recs[i].doc for i in train + test)
+        return {0.1: 0.5, 1.0: 0.9, 10.0: 0.7}[candidate.C]
+
+    recs = records(["a", "b", "c"])
+    best, results = search_stage(config, recs, [None] * len(recs), evaluate)
+    assert best.C == 1.0
+    assert [r["mean_f1"] for r in results] == [0.5, 0.9, 0.7]
+    assert seen_docs == {"a", "b", "c"}  # only the records it was given: the outer test docs never enter
+
+
+def test_no_grid_or_one_doc_leaves_the_config_unchanged():
+    config = ModelConfig(kind="logistic")
+    assert search_stage(config, records(["a", "b"]), [None] * 4, lambda *a: 1 / 0) == (config, [])
+    gridded = ModelConfig(kind="logistic", search={"C": [1.0]})
+    assert search_stage(gridded, records(["a"]), [None] * 2, lambda *a: 1 / 0) == (gridded, [])
+
+
+def test_f1_of_sets_pools_counts():
+    assert f1_of_sets([{1, 2}, {3}], [{1}, {3, 4}]) == pytest.approx(2 * 2 / (3 + 3))
+
+
+def test_search_grid_is_validated_in_the_config():
+    with pytest.raises(ConfigError, match="'role_model.search.gamma' is not a searchable parameter"):
+        config_from_dict({"role_model": {"search": {"gamma": [1]}}})
+    with pytest.raises(ConfigError, match="'trigger_model.threshold' must lie in"):
+        config_from_dict({"trigger_model": {"search": {"threshold": [0.5, 2.0]}}})
