@@ -99,3 +99,37 @@ def test_extract_refuses_a_tampered_model(tmp_path):
     result = runner.invoke(app, ["extract", str(model), str(tmp_path / "in.txt"), "-o", str(tmp_path / "o.jsonl")])
     assert result.exit_code == 2
     assert "SHA-256 digest mismatch" in result.output
+
+
+@pytest.mark.slow
+def test_crossval_with_two_configs_writes_the_three_report_forms(tmp_path, demo_train):
+    quick = tmp_path / "quick.toml"
+    quick.write_text(f'name = "quick-crf"\n[parser]\ncache_dir = "{tmp_path / "cache"}"\n'
+                     '[trigger_model]\nmax_iterations = 25\n[role_model]\nmax_iterations = 25\n', encoding="utf-8")
+    rules = tmp_path / "rules.toml"
+    rules.write_text(f'[parser]\ncache_dir = "{tmp_path / "cache"}"\n[trigger_model]\nkind = "rules"\n'
+                     '[role_model]\nkind = "rules"\n', encoding="utf-8")
+    out = tmp_path / "run"
+    files = [str(demo_train / f) for f in ("amsel-pilgrim-1.jsonl", "quarne-salt-1.jsonl", "varrow-uplands-1.jsonl",
+                                           "brannick-log-1.jsonl")]
+    result = runner.invoke(app, ["crossval", *files, "-c", str(quick), "-c", str(rules), "-k", "2",
+                                 "--bootstrap", "200", "-o", str(out)])
+    assert result.exit_code == 0, result.output
+    report = json.loads((out / "report.json").read_text())
+    assert [s["name"] for s in report["systems"]] == ["quick-crf", "rules"]
+    assert report["comparisons"][0]["a"] == "quick-crf" and "micro" in report["comparisons"][0]["tests"]
+    assert all(len(p["folds"]) == 2 for p in report["folds"])
+    assert "| mover |" in (out / "summary.md").read_text()
+    assert (out / "report.html").read_text().startswith("<!DOCTYPE html>")
+    held_out = [json.loads(line) for line in (out / "predictions" / "quick-crf.jsonl").read_text().splitlines()]
+    assert len(held_out) == report["corpus"]["records"]
+    # Rescoring the saved predictions with `score` gives the report's numbers.
+    gold = tmp_path / "gold.jsonl"
+    gold.write_text("".join(open(f, encoding="utf-8").read() for f in files), encoding="utf-8")
+    rescored = runner.invoke(app, ["score", str(gold), str(out / "predictions" / "rules.jsonl"), "-o", str(tmp_path / "s")])
+    assert rescored.exit_code == 0, rescored.output
+    score = json.loads((tmp_path / "s" / "score.json").read_text())
+    assert score["scores"]["micro"] == report["systems"][1]["scores"]["micro"]
+    contrasted = runner.invoke(app, ["contrast", str(out), str(out), "--system-b", "rules", "--trials", "199"])
+    assert contrasted.exit_code == 0, contrasted.output
+    assert "| micro |" in contrasted.output

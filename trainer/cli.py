@@ -308,17 +308,25 @@ def demo(
     configs: Annotated[Path, typer.Option(help="Folder of the ready configs.")] = DEMO_CONFIGS,
     output: Annotated[Path, typer.Option("--output", "-o", help="Where the demo writes its results.")] = Path("runs/demo"),
 ) -> None:
-    """Run the main job on the demo corpus: check, train, extract from the unannotated chapter."""
+    """Run the main job on the demo corpus: check, compare extractors by cross-validation, train, extract."""
+    from trainer.reports.markdown import markdown_summary
+    from trainer.reports.runs import crossval_report
+
     say(f"== 1. checking the annotations in {data}")
     check([data / "train", data / "test"], roles=None, lemmas=True, pipeline=None, strict=False)
-    say("\n== 2. training the default extractor")
+    say("\n== 2. comparing CRF, logistic and rule extractors by 5-fold cross-validation grouped by journal")
+    configs_used = [configs / "default.toml", configs / "logistic.toml", configs / "rules.toml"]
+    report = crossval_report([data / "train"], configs_used, output / "crossval", progress=say)
+    typer.echo(markdown_summary(report))
+    say(f"report: {output / 'crossval' / 'report.html'} (also report.json, summary.md, predictions/)")
+    say("\n== 3. training the default extractor on all training journals")
     model = output / "model.itin"
     fit([data / "train"], output=model, config=configs / "default.toml", skip_bad=False)
-    say("\n== 3. extracting motion events from the unannotated chapter")
+    say("\n== 4. extracting motion events from the unannotated chapter")
     chapter = data / "unannotated" / "delacott-survey-3.txt"
     extract(model, chapter, output=output / "chapter.jsonl", table=output / "chapter-events.tsv",
             input_format="text", doc=None, batch_size=256)
-    say(f"\nresults are in {output}/")
+    say(f"\nall results are in {output}/")
 
 
 def main() -> None:  # pragma: no cover - console entry point
