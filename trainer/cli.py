@@ -297,6 +297,56 @@ def contrast(
         typer.echo(f"| {name} | {a['f1'][name]:.3f} | {b['f1'][name]:.3f} | {test['difference']:+.3f} | {test['p_value']:.4f} |")
 
 
+@app.command()
+@user_errors
+def gate(
+    report: Annotated[Path, typer.Argument(help="A report folder (or its report.json) from `itinerant crossval`.")],
+    baseline: Annotated[Path, typer.Option(help="The committed baseline JSON.")],
+    config: Annotated[Optional[Path], typer.Option("--config", "-c", help="Take [gate] settings from this config.")] = None,
+    system: Annotated[Optional[str], typer.Option(help="Config name in the report (default: the baseline's).")] = None,
+    rule: Annotated[Optional[str], typer.Option(help="drop (absolute F1 drop) or interval (below the baseline's CI).")] = None,
+    tolerance: Annotated[Optional[float], typer.Option(help="Allowed F1 drop for every score.")] = None,
+    role_tolerance: Annotated[list[str], typer.Option(help="Per-score tolerance, e.g. mover=0.03; repeatable.")] = [],
+    junit: Annotated[Optional[Path], typer.Option(help="Also write JUnit XML, one test case per score.")] = None,
+    allow_mismatch: Annotated[bool, typer.Option(help="Compare even if corpus, roles, mode or folds differ.")] = False,
+    accept: Annotated[bool, typer.Option("--accept", help="Record this report as the new baseline instead of gating.")] = False,
+) -> None:
+    """Fail (exit 1) when extraction quality fell below the baseline; exit 2 when the inputs cannot be compared."""
+    from dataclasses import replace
+
+    from trainer.config import load_config
+    from trainer.gate.compare import (GateInputError, accept_baseline, check_baseline, compare, gate_config_of,
+                                      load_report, markdown_table, read_json)
+    from trainer.gate.junit import junit_xml
+
+    data = load_report(report)
+    settings = load_config(config).gate if config else gate_config_of(data, system)
+    overrides = {}
+    for item in role_tolerance:
+        name, _, value = item.partition("=")
+        try:
+            overrides[name.strip()] = float(value)
+        except ValueError:
+            raise GateInputError(f"--role-tolerance {item!r} is not NAME=NUMBER", "e.g. --role-tolerance mover=0.03") from None
+    settings = replace(settings, rule=rule or settings.rule,
+                       tolerance=settings.tolerance if tolerance is None else tolerance,
+                       role_tolerances={**settings.role_tolerances, **overrides})
+    if settings.rule not in ("drop", "interval"):
+        raise GateInputError(f"--rule {settings.rule!r} is not a gate rule", "use drop or interval")
+    if accept:
+        written = accept_baseline(report, baseline, system=system, config=settings)
+        typer.echo(f"baseline for config '{written['system']}' written to {baseline}")
+        return
+    base = read_json(baseline, "baseline")
+    check_baseline(base)
+    result = compare(data, base, settings, allow_mismatch=allow_mismatch)
+    typer.echo(markdown_table(result))
+    if junit:
+        junit.write_text(junit_xml(result), encoding="utf-8")
+    if not result.passed:
+        raise typer.Exit(1)
+
+
 DEMO_DATA = Path(__file__).resolve().parent.parent / "demo_annotations"
 DEMO_CONFIGS = Path(__file__).resolve().parent.parent / "configs"
 

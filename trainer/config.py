@@ -78,6 +78,14 @@ class EvaluationConfig:
 
 
 @dataclass
+class GateConfig:
+    rule: str = "drop"
+    tolerance: float = 0.02
+    role_tolerances: dict[str, float] = field(default_factory=dict)
+    scores: list[str] = field(default_factory=lambda: ["micro", "mover", "source", "path", "destination", "trigger"])
+
+
+@dataclass
 class ExperimentConfig:
     name: str = "default"
     corpus: CorpusConfig = field(default_factory=CorpusConfig)
@@ -86,6 +94,7 @@ class ExperimentConfig:
     trigger_model: ModelConfig = field(default_factory=ModelConfig)
     role_model: ModelConfig = field(default_factory=ModelConfig)
     evaluation: EvaluationConfig = field(default_factory=EvaluationConfig)
+    gate: GateConfig = field(default_factory=GateConfig)
 
     @property
     def roles(self) -> tuple[str, ...]:
@@ -105,6 +114,7 @@ _CHOICES: dict[str, tuple[str, ...]] = {
     "role_model.class_weight": ("none", "balanced"),
     "evaluation.mode": SCORING_MODES,
     "evaluation.bootstrap_unit": ("doc", "record"),
+    "gate.rule": ("drop", "interval"),
 }
 _POSITIVE = {"parser.batch_size", "parser.workers", "evaluation.folds", "evaluation.repeats",
              "evaluation.bootstrap_samples", "trigger_model.max_iterations", "role_model.max_iterations"}
@@ -145,6 +155,13 @@ def _check_value(path: str, value: Any, source: str) -> None:
             raise ConfigError(f"{source}: unknown feature group(s) {unknown}", f"use some of: {', '.join(FEATURE_GROUPS)}")
     if path == "corpus.roles" and (not value or len(set(value)) != len(value)):
         raise ConfigError(f"{source}: 'corpus.roles' must be a non-empty list without repeats", "e.g. roles = [\"mover\", \"destination\"]")
+    if path == "gate.role_tolerances":
+        for role, tolerance in value.items():
+            if not isinstance(tolerance, (int, float)) or not 0 <= tolerance <= 1:
+                raise ConfigError(f"{source}: 'gate.role_tolerances.{role}' must be a number in [0, 1], got {tolerance!r}",
+                                  "an absolute F1 drop, e.g. mover = 0.03")
+    if path == "gate.tolerance" and not 0 <= value <= 1:
+        raise ConfigError(f"{source}: 'gate.tolerance' must lie in [0, 1], got {value}", "an absolute F1 drop, e.g. 0.02")
     if path.endswith(".search"):
         _check_search(path, value, source)
     if path.endswith("threshold") and not 0.0 <= value <= 1.0:

@@ -1,0 +1,1 @@
+"""The CI gate: compare a fresh evaluation report with a committed baseline."""
