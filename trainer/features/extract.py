@@ -77,4 +77,5 @@ class Featurizer:
         base = base if base is not None else self.token_features(doc)
         if "trigger_relative" not in self.groups:
             return [dict(f) for f in base]
-        return [{**base[t.i], **groups.trigger_relative(t, trigger, self.lexicons)} for t in doc]
+        relative = groups.trigger_relative_all(doc, trigger, self.lexicons)
+        return [{**own, **rel} for own, rel in zip(base, relative)]

@@ -7,6 +7,7 @@ so training and prediction compute features the same way.
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass
 
 from spacy.tokens import Doc, Token
@@ -58,7 +59,7 @@ def governing_preposition(token: Token) -> str:
     is not inside a prepositional phrase.
     """
     node = token
-    while node.dep_ in _PP_INNER_DEPS and node.dep_ != "pobj" and node.head is not node:
+    while node.dep_ in _PP_INNER_DEPS and node.dep_ != "pobj" and node.head.i != node.i:
         node = node.head
     if node.dep_ != "pobj" or node.head.pos_ not in {"ADP", "ADV", "SCONJ"}:
         return ""
@@ -66,6 +67,9 @@ def governing_preposition(token: Token) -> str:
     # Multiword prepositions chain leftwards through adjacent heads: 'out of', 'by way of'.
     while len(words) < _MAX_PREP_WORDS and _extends_preposition(words[-1]):
         words.append(words[-1].head)
+    # A noun is only ever inside one ('way' in 'by way of'), never its first word ('island of Tarn' -> 'of').
+    while words[-1].pos_ == "NOUN":
+        words.pop()
     return " ".join(t.lower_ for t in sorted(words, key=lambda t: t.i))
 
 
@@ -77,7 +81,8 @@ def _extends_preposition(word: Token) -> bool:
 def depth(token: Token) -> int:
     """Steps from the token to the root of its sentence."""
     steps = 0
-    while token.head is not token and steps < 50:
+    # spaCy makes a new Token object on every access, so compare positions, not identity.
+    while token.head.i != token.i and steps < 50:
         token, steps = token.head, steps + 1
     return steps
 
@@ -136,21 +141,31 @@ def lexicon(token: Token, lexicons: Lexicons, gazetteer_tag: str = "O") -> Featu
 def context(per_token: list[Features], i: int, window: int, keys: tuple[str, ...]) -> Features:
     """Selected features of the neighbouring tokens, prefixed by their offset ('-1:lower')."""
     out: Features = {}
-    for offset in range(-window, window + 1):
+    n = len(per_token)
+    for offset, edge, named in _context_names(window, keys):
         j = i + offset
-        if offset == 0:
-            continue
-        if 0 <= j < len(per_token):
-            for key in keys:
-                if key in per_token[j]:
-                    out[f"{offset:+d}:{key}"] = per_token[j][key]
+        if 0 <= j < n:
+            neighbour = per_token[j]
+            for key, name in named:
+                if key in neighbour:
+                    out[name] = neighbour[key]
         else:
-            out[f"{offset:+d}:edge"] = True
+            out[edge] = True
     if i == 0:
         out["BOS"] = True
-    if i == len(per_token) - 1:
+    if i == n - 1:
         out["EOS"] = True
     return out
+
+
+@functools.lru_cache(maxsize=64)
+def _context_names(window: int, keys: tuple[str, ...]) -> tuple[tuple[int, str, tuple[tuple[str, str], ...]], ...]:
+    """Per offset: the offset, its edge feature name and (key, '-1:key') pairs, built once per window and keys."""
+    return tuple(
+        (offset, f"{offset:+d}:edge", tuple((key, f"{offset:+d}:{key}") for key in keys))
+        for offset in range(-window, window + 1)
+        if offset != 0
+    )
 
 
 def bucket(distance: int) -> str:
@@ -167,31 +182,62 @@ def dependency_path(token: Token, target: Token) -> tuple[str, int]:
     Written ``pobj↑prep↑↓`` style: ``label↑`` for each step up from the token,
     ``↓label`` for each step down to the target. Returns the path and its length.
     """
-    up = [token] + list(token.ancestors)
-    target_chain = [target] + list(target.ancestors)
-    target_set = {t.i for t in target_chain}
-    common = next((t for t in up if t.i in target_set), None)
-    if common is None:
-        return "none", 0
-    up_steps = [t.dep_ + "↑" for t in up[: [t.i for t in up].index(common.i)]]
-    down_chain = target_chain[: [t.i for t in target_chain].index(common.i)]
-    down_steps = ["↓" + t.dep_ for t in reversed(down_chain)]
-    return "".join(up_steps + down_steps) or "self", len(up_steps) + len(down_steps)
+    path, length, _ = _path_to(token, _chain(target))
+    return path, length
 
 
-def trigger_relative(token: Token, trigger: tuple[int, int], lexicons: Lexicons) -> Features:
-    """Where the token stands relative to one trigger: side, distance, dependency path, subtree."""
-    doc = token.doc
+def _chain(token: Token) -> list[Token]:
+    """The token and its ancestors, nearest first."""
+    return [token, *token.ancestors]
+
+
+def _path_to(token: Token, target_chain: list[Token]) -> tuple[str, int, bool]:
+    """:func:`dependency_path` to ``target_chain[0]``, given that token's chain (shared across tokens).
+
+    The third item tells whether the target is the token or one of its ancestors,
+    i.e. whether the token lies in the target's subtree.
+    """
+    up = _chain(token)
+    up_index = {t.i: k for k, t in enumerate(up)}
+    down_length = next((k for k, t in enumerate(target_chain) if t.i in up_index), None)
+    if down_length is None:
+        return "none", 0, False
+    up_steps = [t.dep_ + "↑" for t in up[: up_index[target_chain[down_length].i]]]
+    down_steps = ["↓" + t.dep_ for t in reversed(target_chain[:down_length])]
+    return "".join(up_steps + down_steps) or "self", len(up_steps) + len(down_steps), down_length == 0
+
+
+@dataclass(frozen=True)
+class _Trigger:
+    """What the trigger-relative features need of one trigger, computed once for all tokens."""
+
+    first: int
+    end: int
+    head: Token
+    chain: list[Token]
+    lemma: str
+    trigger_class: str
+    verb_class: str
+
+
+def _trigger(doc: Doc, trigger: tuple[int, int], lexicons: Lexicons) -> _Trigger:
     first, end = trigger
     head = doc[first:end].root
+    lemma = head.lemma_.lower()
+    verb_class = lexicons.verb_class(lemma)
+    return _Trigger(first, end, head, _chain(head), lemma,
+                    verb_class or lexicons.noun_class(lemma) or "-", verb_class or "-")
+
+
+def _relative(token: Token, trigger: _Trigger) -> Features:
+    first, end = trigger.first, trigger.end
     if first <= token.i < end:
         side, distance = "in", 0
     elif token.i < first:
         side, distance = "before", first - token.i
     else:
         side, distance = "after", token.i - end + 1
-    path, length = dependency_path(token, head)
-    trigger_lemma = head.lemma_.lower()
+    path, length, in_subtree = _path_to(token, trigger.chain)
     return {
         "t_side": side,
         "t_distance": bucket(distance),
@@ -199,11 +245,22 @@ def trigger_relative(token: Token, trigger: tuple[int, int], lexicons: Lexicons)
         "t_path": path,
         "t_path_length": str(min(length, 6)),
         "t_path_dep": f"{path}|{token.dep_}",
-        "t_in_subtree": head.left_edge.i <= token.i <= head.right_edge.i and token.i in {t.i for t in head.subtree},
-        "t_lemma": trigger_lemma,
-        "t_class": lexicons.verb_class(trigger_lemma) or lexicons.noun_class(trigger_lemma) or "-",
-        "t_gov_prep": f"{governing_preposition(token) or '-'}|{lexicons.verb_class(trigger_lemma) or '-'}",
+        "t_in_subtree": in_subtree,
+        "t_lemma": trigger.lemma,
+        "t_class": trigger.trigger_class,
+        "t_gov_prep": f"{governing_preposition(token) or '-'}|{trigger.verb_class}",
     }
+
+
+def trigger_relative(token: Token, trigger: tuple[int, int], lexicons: Lexicons) -> Features:
+    """Where the token stands relative to one trigger: side, distance, dependency path, subtree."""
+    return _relative(token, _trigger(token.doc, trigger, lexicons))
+
+
+def trigger_relative_all(doc: Doc, trigger: tuple[int, int], lexicons: Lexicons) -> list[Features]:
+    """:func:`trigger_relative` for every token of ``doc``, with the trigger's own parts computed once."""
+    info = _trigger(doc, trigger, lexicons)
+    return [_relative(token, info) for token in doc]
 
 
 @dataclass(frozen=True)

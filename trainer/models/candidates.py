@@ -7,7 +7,7 @@ preposition, trailing relative clauses, appositions or punctuation.
 
 from __future__ import annotations
 
-from spacy.tokens import Doc, Token
+from spacy.tokens import Doc, Span, Token
 
 from trainer.features.gazetteer import Gazetteer
 
@@ -40,7 +40,7 @@ def phrase_span(token: Token) -> tuple[int, int]:
 def candidate_phrases(doc: Doc, gazetteer: Gazetteer | None = None) -> list[tuple[int, int, str]]:
     """Candidate argument phrases ``(first, end, kind)``: noun phrases, proper-noun runs, pronouns, gazetteer names."""
     found: dict[tuple[int, int], str] = {}
-    for chunk in doc.noun_chunks:
+    for chunk in _noun_chunks(doc):
         found.setdefault(phrase_span(chunk.root), "phrase")
         found.setdefault((chunk.start, chunk.end), "chunk")
     run_start = None
@@ -60,3 +60,18 @@ def candidate_phrases(doc: Doc, gazetteer: Gazetteer | None = None) -> list[tupl
         for first, end in gazetteer.spans(doc):
             found.setdefault((first, end), "gazetteer")
     return sorted((first, end, kind) for (first, end), kind in found.items())
+
+
+def _noun_chunks(doc: Doc) -> list[Span]:
+    """spaCy's noun chunks, or none when the Doc has no dependency labels (spaCy error E029).
+
+    That happens for Docs read from a CoNLL-U file without HEAD/DEPREL columns;
+    candidates then come from the other kinds (proper-noun runs, pronouns,
+    noun heads by their label, gazetteer names).
+    """
+    try:
+        return list(doc.noun_chunks)
+    except ValueError as exc:
+        if "E029" not in str(exc):
+            raise
+        return []

@@ -42,7 +42,8 @@ def span_to_tokens(doc: Doc, span: tuple[int, int], report: AlignmentReport | No
     if report is not None:
         report.spans += 1
     piece = doc.char_span(span[0], span[1], alignment_mode="expand")
-    if piece is None or len(piece) == 0:
+    # Whitespace-only spans are dropped even where the tokenizer made a whitespace token ("We  rode").
+    if piece is None or len(piece) == 0 or all(t.is_space for t in piece):
         if report is not None:
             report.dropped += 1
             report.note("dropped", doc.text, span, "")

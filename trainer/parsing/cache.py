@@ -144,5 +144,6 @@ def parse_with_cache(
         if cache:
             cache.store(list(zip(missing, docs)))
     stats.parsed = len(missing)
-    stats.cached = len(texts) - sum(1 for k in keys if k in set(missing))
+    missing_keys = set(missing)  # built once: inside the generator it made this count quadratic
+    stats.cached = sum(1 for k in keys if k not in missing_keys)
     return [known[k] for k in keys], stats
