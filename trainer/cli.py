@@ -218,6 +218,7 @@ def crossval(
     bootstrap: Annotated[Optional[int], typer.Option(help="Bootstrap samples per interval.")] = None,
     shares: Annotated[Optional[str], typer.Option(help="Also a learning curve at these shares of training docs.")] = None,
     jobs: Annotated[int, typer.Option("--jobs", "-j", help="Parallel worker processes for folds and configs.")] = 1,
+    scheduler: Annotated[Optional[str], typer.Option(help="Dask scheduler address (e.g. tcp://host:8786): run the trainings on that cluster.")] = None,
     skip_bad: Annotated[bool, typer.Option(help="Leave out records with errors (listed) instead of refusing.")] = False,
 ) -> None:
     """Cross-validate one or more configs on the same document folds and write a report folder."""
@@ -226,7 +227,7 @@ def crossval(
 
     report = crossval_report(
         corpus, config, output, fold_options=_fold_options(config, folds, repeats, seed, leave_one_doc_out, test_docs),
-        settings=_settings(config, mode, seed, bootstrap), test_paths=test, jobs=jobs,
+        settings=_settings(config, mode, seed, bootstrap), test_paths=test, jobs=jobs, scheduler=scheduler,
         curve_shares=_shares(shares) if shares else (), skip_bad=skip_bad, progress=say)
     typer.echo(markdown_summary(report))
     say(f"report written to {output}/ (report.json, summary.md, report.html, predictions/)")
@@ -243,13 +244,15 @@ def curve(
     mode: ModeOption = None,
     seed: SeedOption = None,
     jobs: Annotated[int, typer.Option("--jobs", "-j", help="Parallel worker processes.")] = 1,
+    scheduler: Annotated[Optional[str], typer.Option(help="Dask scheduler address: run the trainings on that cluster.")] = None,
 ) -> None:
     """Learning curve: F1 per role as each fold's training docs grow; written with a full cross-validation report."""
     from trainer.reports.markdown import markdown_summary
     from trainer.reports.runs import crossval_report
 
     report = crossval_report(corpus, config, output, fold_options=_fold_options(config, folds, None, seed, False, None),
-                             settings=_settings(config, mode, seed, None), jobs=jobs, curve_shares=_shares(shares),
+                             settings=_settings(config, mode, seed, None), jobs=jobs, scheduler=scheduler,
+                             curve_shares=_shares(shares),
                              progress=say)
     typer.echo(markdown_summary(report))
     say(f"report with learning curve written to {output}/")

@@ -13,7 +13,7 @@ import time
 from dataclasses import dataclass, field
 from typing import Callable, Sequence
 
-from joblib import Parallel, delayed
+from joblib import Parallel, delayed, parallel_config
 from spacy.language import Language
 from spacy.tokens import Doc
 
@@ -21,7 +21,9 @@ from trainer.config import ExperimentConfig
 from trainer.corpus.records import Record
 from trainer.errors import ConfigError
 from trainer.evaluation.folds import FoldPlan
-from trainer.models.training import fit_extractor, parser_for
+from trainer.features.extract import Featurizer
+from trainer.models.extractor import MotionExtractor
+from trainer.models.training import parser_for
 from trainer.parsing.parse import parse_records
 
 Progress = Callable[[str], None]
@@ -66,6 +68,7 @@ class CrossvalRun:
     parse_seconds: float
     parsed: int
     cached: int
+    docs: list[Doc] = field(default_factory=list, repr=False)
 
 
 def _unique_names(configs: Sequence[ExperimentConfig]) -> list[str]:
@@ -75,13 +78,13 @@ def _unique_names(configs: Sequence[ExperimentConfig]) -> list[str]:
     return names
 
 
-def _run_fold(config: ExperimentConfig, repeat: int, index: int, train: list[Record], train_docs: list[Doc],
-              test: list[Record], test_docs: list[Doc], nlp: Language) -> FoldOutput:
+def _run_fold(config: ExperimentConfig, featurizer: Featurizer, repeat: int, index: int, train: list[Record],
+              train_docs: list[Doc], test: list[Record], test_docs: list[Doc]) -> FoldOutput:
     started = time.perf_counter()
-    trained = fit_extractor(train, config, nlp=nlp, docs=train_docs)
+    extractor = MotionExtractor(config, featurizer).fit(train, train_docs)
     trained_at = time.perf_counter()
-    predicted = trained.extractor.predict(test, test_docs)
-    given = trained.extractor.predict(test, test_docs, gold_triggers=True)
+    predicted = extractor.predict(test, test_docs)
+    given = extractor.predict(test, test_docs, gold_triggers=True)
     return FoldOutput(config.name, repeat, index, predicted, given, trained_at - started,
                       time.perf_counter() - trained_at, len(train))
 
@@ -92,13 +95,18 @@ def run_crossval(
     plans: Sequence[FoldPlan],
     *,
     nlp: Language | None = None,
+    docs: Sequence[Doc] | None = None,
     jobs: int = 1,
+    scheduler: str | None = None,
     progress: Progress | None = None,
 ) -> CrossvalRun:
     """Train every config on every fold's training docs and predict its held-out docs.
 
-    All configs must use the same parser pipeline (so the same parses serve them all).
-    ``jobs`` runs folds and configs in parallel worker processes with joblib.
+    All configs must use the same parser pipeline, so one parse of each record
+    serves them all; pass ``docs`` (one per annotated record, in order) to reuse
+    parses made earlier. ``jobs`` runs the (config, fold) trainings in parallel
+    worker processes with joblib; ``scheduler`` (a Dask scheduler address) sends
+    them to a Dask cluster instead. Results are the same either way.
     """
     names = _unique_names(configs)
     pipelines = {c.parser.pipeline for c in configs}
@@ -108,8 +116,13 @@ def run_crossval(
     annotated = [r for r in records if r.is_annotated]
     nlp = nlp or parser_for(configs[0])
     started = time.perf_counter()
-    docs, stats = parse_records(nlp, annotated, configs[0].parser)
+    if docs is None:
+        docs, stats = parse_records(nlp, annotated, configs[0].parser)
+        parsed, cached = stats.parsed, stats.cached
+    else:
+        parsed, cached = 0, len(docs)
     parse_seconds = time.perf_counter() - started
+    featurizers = {c.name: Featurizer.from_config(c.features, nlp) for c in configs}
     by_doc: dict[str, list[int]] = {}
     for i, record in enumerate(annotated):
         by_doc.setdefault(record.doc, []).append(i)
@@ -123,14 +136,31 @@ def run_crossval(
             for index, (train_names, test_names) in enumerate(plan.folds):
                 train_ids, test_ids = pick(train_names), pick(test_names)
                 tasks.append(delayed(_run_fold)(
-                    config, plan.repeat, index, [annotated[i] for i in train_ids], [docs[i] for i in train_ids],
-                    [annotated[i] for i in test_ids], [docs[i] for i in test_ids], nlp))
+                    config, featurizers[config.name], plan.repeat, index, [annotated[i] for i in train_ids],
+                    [docs[i] for i in train_ids], [annotated[i] for i in test_ids], [docs[i] for i in test_ids]))
     if progress:
-        progress(f"{len(annotated)} records parsed ({stats.cached} from cache) in {parse_seconds:.1f} s; "
+        progress(f"{len(annotated)} records parsed ({cached} from cache) in {parse_seconds:.1f} s; "
                  f"{len(tasks)} training runs ({len(configs)} config(s) x {sum(len(p.folds) for p in plans)} fold(s))")
-    outputs = Parallel(n_jobs=jobs, prefer="processes")(tasks) if jobs > 1 else _serial(tasks, progress)
+    outputs = _dispatch(tasks, jobs=jobs, scheduler=scheduler, progress=progress)
     systems = [SystemRun(name, config, [o for o in outputs if o.config == name]) for name, config in zip(names, configs)]
-    return CrossvalRun(annotated, list(plans), systems, parse_seconds, stats.parsed, stats.cached)
+    return CrossvalRun(annotated, list(plans), systems, parse_seconds, parsed, cached, list(docs))
+
+
+def _dispatch(tasks: list, *, jobs: int, scheduler: str | None, progress: Progress | None) -> list[FoldOutput]:
+    """Run the training tasks serially, in local worker processes, or on a Dask cluster; order is kept."""
+    if scheduler:
+        try:
+            from dask.distributed import Client
+        except ImportError:
+            raise ConfigError("a Dask scheduler was given but dask.distributed is not installed",
+                              "install it with `pip install 'itinerant[cluster]'` (or `pip install 'dask[distributed]'`)") from None
+        if progress:
+            progress(f"sending {len(tasks)} training runs to the Dask scheduler at {scheduler}")
+        with Client(scheduler), parallel_config(backend="dask"):
+            return Parallel(n_jobs=-1)(tasks)
+    if jobs > 1:
+        return Parallel(n_jobs=jobs, prefer="processes", verbose=10 if progress else 0)(tasks)
+    return _serial(tasks, progress)
 
 
 def _serial(tasks: list, progress: Progress | None) -> list[FoldOutput]:

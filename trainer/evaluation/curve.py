@@ -7,6 +7,8 @@ from typing import Any, Sequence
 
 import numpy as np
 
+from spacy.tokens import Doc
+
 from trainer.config import ExperimentConfig
 from trainer.corpus.records import Record
 from trainer.errors import ConfigError
@@ -31,9 +33,12 @@ def shrink_plan(plan: FoldPlan, share: float, *, seed: int) -> FoldPlan:
 def learning_curve(
     records: Sequence[Record], configs: Sequence[ExperimentConfig], plans: Sequence[FoldPlan], *,
     shares: Sequence[float] = DEFAULT_SHARES, settings: EvaluationSettings | None = None,
-    jobs: int = 1, progress: Progress | None = None,
+    jobs: int = 1, scheduler: str | None = None, docs: Sequence[Doc] | None = None, progress: Progress | None = None,
 ) -> dict[str, Any]:
-    """Pooled F1 per config and share of training docs: ``{"shares": [...], "systems": {name: [point, ...]}}``."""
+    """Pooled F1 per config and share of training docs: ``{"shares": [...], "systems": {name: [point, ...]}}``.
+
+    ``docs`` (one per annotated record) reuses parses already made, so no record is parsed twice in a run.
+    """
     if not shares or any(not 0 < s <= 1 for s in shares):
         raise ConfigError(f"shares must lie in (0, 1], got {list(shares)}", "e.g. --shares 0.25,0.5,0.75,1")
     settings = settings or EvaluationSettings()
@@ -43,7 +48,8 @@ def learning_curve(
         if progress:
             progress(f"learning curve: {share:.0%} of the training docs")
         shrunk = [shrink_plan(p, share, seed=settings.seed) for p in plans]
-        run = run_crossval(annotated, configs, shrunk, jobs=jobs, progress=progress)
+        run = run_crossval(annotated, configs, shrunk, docs=docs, jobs=jobs, scheduler=scheduler, progress=progress)
+        docs = run.docs
         for system in run.systems:
             repeats = sorted({f.repeat for f in system.folds})
             scores = pooled_counts(run.records, [system.predictions(r) for r in repeats],

@@ -69,7 +69,8 @@ def load_inputs(corpus_paths: Sequence[Path], config_paths: Sequence[Path], *, t
 def crossval_report(
     corpus_paths: Sequence[Path], config_paths: Sequence[Path], folder: Path, *, fold_options: FoldOptions | None = None,
     settings: EvaluationSettings | None = None, test_paths: Sequence[Path] = (), jobs: int = 1,
-    curve_shares: Sequence[float] = (), skip_bad: bool = False, progress: Progress | None = None,
+    scheduler: str | None = None, curve_shares: Sequence[float] = (), skip_bad: bool = False,
+    progress: Progress | None = None,
 ) -> dict[str, Any]:
     """Cross-validate every config on the same folds and write the report folder."""
     started = time.perf_counter()
@@ -82,10 +83,10 @@ def crossval_report(
                                               bootstrap_unit=evaluation.bootstrap_unit, seed=evaluation.seed)
     records = corpus.annotated()
     plans = plan_folds(records, options)
-    run = run_crossval(records, configs, plans, jobs=jobs, progress=progress)
+    run = run_crossval(records, configs, plans, jobs=jobs, scheduler=scheduler, progress=progress)
     summary = summarise(run, settings)
     curve = learning_curve(records, configs, plans, shares=curve_shares, settings=settings, jobs=jobs,
-                           progress=progress) if curve_shares else None
+                           scheduler=scheduler, docs=run.docs, progress=progress) if curve_shares else None
     files = [str(p) for p in expand_paths(list(corpus_paths) + list(test_paths))]
     return write_report_folder(folder, run, summary, corpus_files=files, seconds=time.perf_counter() - started,
                                learning_curve=curve)

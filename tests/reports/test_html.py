@@ -1,0 +1,247 @@
+"""The HTML report: escaping, highlighted spans (nested too), embedded figures, and the page in Chromium."""
+
+from __future__ import annotations
+
+import os
+import re
+import shutil
+import subprocess
+from html.parser import HTMLParser
+from pathlib import Path
+
+import pytest
+from report_samples import ROLES, S1, S2, gold_records, predictions, tiny_report
+
+from trainer.reports.html import (
+    LineTally,
+    Mark,
+    config_line,
+    css_name,
+    highlight,
+    html_report,
+    select_sentences,
+    span_marks,
+)
+
+CHROMIUM_FLAGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
+                  "--disable-background-networking", "--disable-component-update", "--disable-sync"]
+
+
+class MarkCollector(HTMLParser):
+    """Every ``<mark>``: its classes and text, and which sentence line (``gold`` or a config) it is on."""
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.marks: list[tuple[str | None, tuple[str, ...], str]] = []
+        self.line: str | None = None
+        self._open: list[tuple[tuple[str, ...], list[str]]] = []
+
+    def handle_starttag(self, tag: str, attrs: list[tuple[str, str | None]]) -> None:
+        attributes = dict(attrs)
+        classes = tuple((attributes.get("class") or "").split())
+        if tag == "div" and "text" in classes:
+            self.line = "gold" if "gold" in classes else attributes.get("data-config")
+        if tag == "mark":
+            self._open.append((classes, []))
+
+    def handle_data(self, data: str) -> None:
+        for _, parts in self._open:
+            parts.append(data)
+
+    def handle_endtag(self, tag: str) -> None:
+        if tag == "mark" and self._open:
+            classes, parts = self._open.pop()
+            self.marks.append((self.line, classes, "".join(parts)))
+        if tag == "ol":
+            self.line = None
+
+
+def marks_of(page: str) -> list[tuple[str | None, tuple[str, ...], str]]:
+    collector = MarkCollector()
+    collector.feed(page)
+    return collector.marks
+
+
+def page() -> str:
+    return html_report(tiny_report(), gold_records(), predictions())
+
+
+# ---------------------------------------------------------------- highlighting
+
+
+def test_highlight_escapes_text_and_wraps_each_span_in_its_classes() -> None:
+    text = "We <rode> & left"
+    marks = [Mark(0, 2, "mover", None, "mover"), Mark(3, 9, "trigger", None, "trigger")]
+    assert highlight(text, marks, ROLES) == (
+        '<mark class="role-mover" title="mover">We</mark> '
+        '<mark class="trigger" title="trigger">&lt;rode&gt;</mark> &amp; left')
+
+
+def test_highlight_nested_spans_cut_at_every_boundary_with_all_classes() -> None:
+    # path "the road to Kell Ferry" [19, 41) holds destination "Kell Ferry" [31, 41)
+    marks = [Mark(19, 41, "path", None, "path of “followed”"), Mark(31, 41, "destination", None, "destination")]
+    assert highlight(S2, marks, ROLES) == (
+        'The mules followed <mark class="role-path" title="path of “followed”">the road to </mark>'
+        '<mark class="role-path role-destination" style="background: linear-gradient(180deg, '
+        'var(--role-path) 0% 50%, var(--role-destination) 50% 100%)" '
+        'title="path of “followed”; destination">Kell Ferry</mark>.')
+
+
+def test_highlight_crossing_spans_and_status_of_a_shared_piece() -> None:
+    # "ab" mover [0, 2) matched, "bc" path [1, 3) unmatched: the shared "b" is not a match
+    marks = [Mark(0, 2, "mover", "match", "m"), Mark(1, 3, "path", "nomatch", "p")]
+    out = highlight("abcd", marks, ROLES)
+    assert '<mark class="role-mover match" title="m">a</mark>' in out
+    assert '<mark class="role-mover role-path nomatch"' in out and '>b</mark>' in out
+    assert '<mark class="role-path nomatch" title="p (no gold span like it)">c</mark>d' in out
+
+
+def test_span_marks_merge_a_shared_argument_and_skip_unscored_roles() -> None:
+    record = gold_records()[0]
+    assert span_marks(record, ROLES, S1) == {
+        ("mover", 0, 2): "mover of “left”, “rode”",
+        ("trigger", 3, 7): "trigger",
+        ("source", 8, 14): "source of “left”",
+        ("trigger", 17, 21): "trigger",
+        ("path", 25, 35): "path of “rode”",
+        ("destination", 39, 49): "destination of “rode”",
+    }
+    assert span_marks(record, ["path"], S1) == {("trigger", 3, 7): "trigger", ("trigger", 17, 21): "trigger",
+                                                ("path", 25, 35): "path of “rode”"}
+    assert span_marks(None, ROLES, S1) == {}
+
+
+def test_config_line_marks_matches_unmatched_and_missed_spans() -> None:
+    gold = span_marks(gold_records()[1], ROLES, S2)
+    alpha = span_marks(predictions()["alpha"][1], ROLES, S2)
+    body, missed, tally = config_line(S2, gold, alpha, ROLES)
+    assert tally == LineTally(matched=3, unmatched=1, missed=1)
+    assert '<mark class="role-path nomatch" title="path of “followed” (no gold span like it)">the road</mark>' in body
+    assert '<mark class="role-destination match" title="destination of “followed”">Kell Ferry</mark>' in body
+    assert missed == '<mark class="role-path missed" title="path of “followed”">the road to Kell Ferry</mark>'
+
+
+def test_css_name_keeps_safe_characters_only() -> None:
+    assert css_name("crf-2_b") == "crf-2_b"
+    assert css_name('a b"<c>') == "a-b--c-"
+
+
+# ---------------------------------------------------------------- the page
+
+
+def test_page_escapes_every_text_with_a_less_than_sign() -> None:
+    out = page()
+    assert "<ford>" not in out and "<train>" not in out
+    assert "tiny/&lt;train&gt;.jsonl" in out
+    assert '<mark class="role-path" title="path of “rode”">the &lt;ford&gt;</mark>' in out
+    assert "mover of “left”, “rode”" in out
+    assert "path “the &lt;ford&gt;” of “rode”" in out  # an error example
+
+
+def test_page_is_standalone_with_embedded_figures() -> None:
+    out = page()
+    assert out.startswith("<!DOCTYPE html>")
+    assert len(re.findall(r'<img src="data:image/png;base64,[A-Za-z0-9+/=]+"', out)) == 1
+    with_curve = html_report(tiny_report(curve=True), gold_records(), predictions())
+    assert len(re.findall(r'<img src="data:image/png;base64,[A-Za-z0-9+/=]+"', with_curve)) == 2
+    assert 'id="learning-curve"' in with_curve and 'id="learning-curve"' not in out
+    for external in ("<script", "<link", 'src="http', "url(", "@import"):
+        assert external not in out
+
+
+def test_page_score_tables_and_sections() -> None:
+    out = page()
+    table = re.search(r'<table id="scores-alpha" class="scores">.*?</table>', out).group(0)
+    assert ('<tr><th>mover</th><td class="num">0.800</td><td class="num">0.700</td><td class="num">0.750</td>'
+            '<td class="num">0.650 – 0.800</td><td class="num">0.750 ± 0.020</td><td class="num">10</td>'
+            '<td class="num">9</td></tr>') in table
+    assert '<tr class="pooled first-pooled"><th>micro</th>' in table
+    assert "<th>macro</th>" in table and "<th>trigger</th>" in table
+    assert 'id="scores-beta"' in out and 'id="sentences"' in out and 'id="comparisons"' in out
+    assert "no predictions for role source" in out  # beta's undefined note
+    assert '<td class="num significant">0.0300</td>' in out and '<td class="num">0.5000</td>' in out
+    assert "triggers: crf · roles: logistic · features: lexical, syntax" in out
+    assert "the same held-out folds with the gold".lower() in out.lower()
+
+
+def test_page_shows_the_sentences_with_events_only() -> None:
+    assert [r.id for r in select_sentences(gold_records(), predictions())] == ["d1-s1", "d1-s2", "d2-s2"]
+    out = page()
+    assert "All 3 held-out sentences with gold or predicted events." in out
+    assert "Unannotated text" not in out and "It rained all day." not in out
+    marks = marks_of(out)
+    assert (None, ("role-mover", "nomatch"), "The wind") not in marks
+    assert ("beta", ("role-mover", "nomatch"), "The wind") in marks
+    assert ("gold", ("role-path", "role-destination"), "Kell Ferry") in marks
+    assert ("gold", ("role-path",), "the road to ") in marks
+    assert ("alpha", ("role-path", "nomatch"), "the road") in marks
+    assert ("alpha", ("role-path", "missed"), "the road to Kell Ferry") in marks
+    assert ("beta", ("role-source", "missed"), "Caddow") in marks
+    assert ("alpha", ("role-source", "match"), "Caddow") in marks
+
+
+def test_page_caps_the_sentences_and_says_how_many_were_left_out() -> None:
+    out = html_report(tiny_report(), gold_records(), predictions(), max_sentences=1)
+    assert "Showing the first 1 of 3 held-out sentences with gold or predicted events; 2 left out" in out
+    assert "d1-s1 · d1" in out and "d1-s2 · d1" not in out
+
+
+def test_page_is_the_same_for_the_same_data() -> None:
+    assert page() == page()
+
+
+# ---------------------------------------------------------------- in a browser
+
+
+def chromium_or_skip() -> str:
+    """The Chromium binary; skip without it on a developer machine, fail in CI (where .ci/run installs it)."""
+    binary = shutil.which("chromium") or shutil.which("/usr/bin/chromium")
+    if binary is None:
+        if os.environ.get("CI"):
+            pytest.fail("chromium is not installed but CI is set: .ci/run should have installed it")
+        pytest.skip("chromium is not installed (apt-get install chromium); CI runs this test")
+    return binary
+
+
+def test_missing_chromium_skips_on_a_developer_machine_and_fails_in_ci(monkeypatch: pytest.MonkeyPatch) -> None:
+    monkeypatch.setattr(shutil, "which", lambda name: None)
+    monkeypatch.delenv("CI", raising=False)
+    with pytest.raises(pytest.skip.Exception, match="chromium is not installed"):
+        chromium_or_skip()
+    monkeypatch.setenv("CI", "true")
+    with pytest.raises(pytest.fail.Exception, match="but CI is set"):
+        chromium_or_skip()
+
+
+def run_chromium(binary: str, profile: Path, *args: str) -> subprocess.CompletedProcess[str]:
+    return subprocess.run([binary, *CHROMIUM_FLAGS, f"--user-data-dir={profile}", *args],
+                          capture_output=True, text=True, timeout=180, check=False)
+
+
+@pytest.mark.browser
+def test_page_renders_in_headless_chromium(tmp_path: Path) -> None:
+    binary = chromium_or_skip()
+    html_file = tmp_path / "report.html"
+    html_file.write_text(html_report(tiny_report(curve=True), gold_records(), predictions()), encoding="utf-8")
+    url = html_file.as_uri()
+
+    dumped = run_chromium(binary, tmp_path / "profile-dom", "--dump-dom", url)
+    assert dumped.returncode == 0, dumped.stderr[-2000:]
+    dom = dumped.stdout
+    body = re.search(r'<table id="scores-alpha" class="scores">.*?<tbody>(.*?)</tbody>', dom, re.S)
+    assert body is not None
+    rows = re.findall(r"<tr[^>]*><th>([^<]+)</th>", body.group(1))
+    assert rows == [*ROLES, "micro", "macro", "trigger", "micro, trigger link ignored"]
+    assert 'id="sentences"' in dom
+    marks = marks_of(dom)
+    assert ("gold", ("role-path",), "the <ford>") in marks  # the browser decoded &lt; back to <
+    assert ("gold", ("role-path", "role-destination"), "Kell Ferry") in marks
+    assert ("alpha", ("role-path", "nomatch"), "the road") in marks
+    assert ("beta", ("trigger", "nomatch"), "rose") in marks
+
+    shot = tmp_path / "report.png"
+    shown = run_chromium(binary, tmp_path / "profile-shot", f"--screenshot={shot}", "--window-size=1280,2000", url)
+    assert shown.returncode == 0, shown.stderr[-2000:]
+    assert shot.exists() and shot.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    assert shot.stat().st_size > 30_000
+    print(f"screenshot of the report: {shot}")

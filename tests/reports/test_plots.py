@@ -1,0 +1,58 @@
+"""The report figures: PNG bytes, fixed size, the same bytes for the same data."""
+
+from __future__ import annotations
+
+import struct
+
+from report_samples import tiny_report
+
+from trainer.reports.plots import DPI, ROLE_PLOT_SIZE, config_styles, learning_curve_plot, role_f1_plot
+
+PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
+
+
+def png_size(png: bytes) -> tuple[int, int]:
+    """Width and height from the IHDR chunk."""
+    assert png[:8] == PNG_SIGNATURE
+    assert png[12:16] == b"IHDR"
+    return struct.unpack(">II", png[16:24])
+
+
+def test_role_f1_plot_is_a_png_of_fixed_size_without_software_stamp() -> None:
+    png = role_f1_plot(tiny_report())
+    assert png_size(png) == (round(ROLE_PLOT_SIZE[0] * DPI), round(ROLE_PLOT_SIZE[1] * DPI)) == (900, 420)
+    assert b"Software" not in png
+    assert b"matplotlib" not in png.lower()
+
+
+def test_role_f1_plot_gives_identical_bytes_for_identical_data() -> None:
+    assert role_f1_plot(tiny_report()) == role_f1_plot(tiny_report())
+
+
+def test_role_f1_plot_changes_with_the_data() -> None:
+    report = tiny_report()
+    changed = tiny_report()
+    changed["systems"][0]["scores"]["roles"]["mover"]["f1"] = 0.2
+    changed["systems"][0]["intervals"]["mover"] = [0.1, 0.3]
+    assert role_f1_plot(report) != role_f1_plot(changed)
+
+
+def test_learning_curve_plot_is_none_without_a_curve() -> None:
+    assert learning_curve_plot(tiny_report()) is None
+    report = tiny_report()
+    report.pop("learning_curve")
+    assert learning_curve_plot(report) is None
+
+
+def test_learning_curve_plot_is_deterministic_and_two_rows_for_five_panels() -> None:
+    first = learning_curve_plot(tiny_report(curve=True))
+    second = learning_curve_plot(tiny_report(curve=True))
+    assert first is not None and first == second
+    # micro + four roles = five panels, three to a row: 3 x 3.4 in wide, 2 x 2.7 in high, at 100 dpi
+    assert png_size(first) == (1020, 540)
+
+
+def test_config_styles_follow_report_order_and_cover_curve_only_configs() -> None:
+    report = tiny_report(curve=True)
+    report["learning_curve"]["systems"]["gamma"] = report["learning_curve"]["systems"]["beta"]
+    assert config_styles(report) == {"alpha": ("#1f77b4", "o"), "beta": ("#ff7f0e", "s"), "gamma": ("#2ca02c", "D")}
