@@ -350,6 +350,44 @@ def gate(
         raise typer.Exit(1)
 
 
+@app.command()
+@user_errors
+def itinerary(
+    records: Annotated[list[Path], typer.Argument(help="Extracted or gold records (canonical JSONL files or folders).")],
+    output: Annotated[Path, typer.Option("--output", "-o", help="Itinerary table (.csv or .tsv).")],
+    movers: Annotated[Optional[str], typer.Option(help="Keep events of these movers: first_person and/or names, comma-separated.")] = None,
+    carry_mover: Annotated[bool, typer.Option(help="Give events without a mover the previous event's mover.")] = False,
+    gazetteer: Annotated[Optional[Path], typer.Option(help="Places table: name, latitude, longitude, alternatives.")] = None,
+    geojson: Annotated[Optional[Path], typer.Option(help="Write the route as GeoJSON (needs --gazetteer).")] = None,
+    skip_bad: Annotated[bool, typer.Option(help="Leave out records with errors (listed) instead of refusing.")] = False,
+) -> None:
+    """Turn events into an ordered itinerary per doc, and optionally a GeoJSON map of the route."""
+    from trainer.annotation.geo import build_geojson, read_gazetteer, write_geojson
+    from trainer.annotation.itinerary import build_itinerary, write_itinerary
+    from trainer.corpus.reader import read_corpus, skipped_summary
+    from trainer.errors import ConfigError
+
+    if bool(gazetteer) != bool(geojson):
+        raise ConfigError("--gazetteer and --geojson go together", "give both to write a map, or neither")
+    corpus = read_corpus(records, skip_bad=skip_bad)
+    if corpus.skipped:
+        say(skipped_summary(corpus))
+    wanted = [m.strip() for m in movers.split(",") if m.strip()] if movers else None
+    route = build_itinerary(corpus.records, movers=wanted, carry_mover=carry_mover)
+    write_itinerary(route, output)
+    say(f"{len(route.rows)} event(s) in {len(route.docs)} doc(s) written to {output}"
+        + (f"; {route.left_out} left out by the mover filter" if route.left_out else ""))
+    if gazetteer and geojson:
+        mapped = build_geojson(route, read_gazetteer(gazetteer))
+        write_geojson(mapped, geojson)
+        for note in mapped.notes:
+            say(f"note: {note}")
+        say(f"GeoJSON written to {geojson}; {mapped.resolved_mentions} place mention(s) resolved, "
+            f"{len(mapped.unresolved)} name(s) unresolved" + (f": {', '.join(mapped.unresolved)}" if mapped.unresolved else ""))
+    if corpus.skipped:
+        raise typer.Exit(1)
+
+
 DEMO_DATA = Path(__file__).resolve().parent.parent / "demo_annotations"
 DEMO_CONFIGS = Path(__file__).resolve().parent.parent / "configs"
 

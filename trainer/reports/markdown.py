@@ -34,6 +34,22 @@ def system_table(system: dict[str, Any], roles: list[str]) -> list[str]:
     return lines
 
 
+def extrapolation_lines(extrapolation: dict[str, Any] | None) -> list[str]:
+    """Estimated F1 at larger training sizes, with the fit's verdict said plainly."""
+    if not extrapolation:
+        return []
+    out = ["", f"Estimated micro F1 with more annotation (fit: {extrapolation['model']}):", ""]
+    for name, fit in extrapolation["systems"].items():
+        for e in fit["estimates"]:
+            if e["f1"] is None:
+                continue
+            interval = "" if e["low"] is None else f" [{e['low']:.3f}, {e['high']:.3f}]"
+            out.append(f"- {name}: {e['train_records']:g} records ({e['factor']:g}x): {e['f1']:.3f}{interval}")
+        verdict = "reliable" if fit["reliable"] else "UNRELIABLE: " + "; ".join(fit["reasons"])
+        out.append(f"- {name}: the fit is {verdict}")
+    return out
+
+
 def score_markdown(report: dict[str, Any]) -> str:
     """The result of scoring one prediction file against gold."""
     roles = list(report["scores"]["roles"])
@@ -86,4 +102,5 @@ def markdown_summary(report: dict[str, Any]) -> str:
                 "|---|" + "---:|" * len(curve["shares"])]
         for name, points in curve["systems"].items():
             out.append(f"| {name} | " + " | ".join(_f(p["f1"]["micro"]) for p in points) + " |")
+        out += extrapolation_lines(curve.get("extrapolation"))
     return "\n".join(out) + "\n"

@@ -20,6 +20,7 @@ from trainer.evaluation.bootstrap import bootstrap_f1s
 from trainer.evaluation.crossval import Progress, run_crossval
 from trainer.evaluation.curve import learning_curve
 from trainer.evaluation.error_analysis import error_analysis
+from trainer.evaluation.extrapolate import extrapolate_curve, extrapolation_report
 from trainer.evaluation.folds import FoldPlan, fixed_split, grouped_kfold, leave_one_doc_out
 from trainer.evaluation.scoring import count_corpus
 from trainer.evaluation.significance import compare_f1s
@@ -85,8 +86,11 @@ def crossval_report(
     plans = plan_folds(records, options)
     run = run_crossval(records, configs, plans, jobs=jobs, scheduler=scheduler, progress=progress)
     summary = summarise(run, settings)
-    curve = learning_curve(records, configs, plans, shares=curve_shares, settings=settings, jobs=jobs,
-                           scheduler=scheduler, docs=run.docs, progress=progress) if curve_shares else None
+    curve = None
+    if curve_shares:
+        curve = learning_curve(records, configs, plans, shares=curve_shares, settings=settings, jobs=jobs,
+                               scheduler=scheduler, docs=run.docs, progress=progress)
+        curve["extrapolation"] = extrapolation_report(extrapolate_curve(curve, seed=settings.seed))
     files = [str(p) for p in expand_paths(list(corpus_paths) + list(test_paths))]
     return write_report_folder(folder, run, summary, corpus_files=files, seconds=time.perf_counter() - started,
                                learning_curve=curve)
