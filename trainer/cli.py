@@ -10,6 +10,7 @@ from __future__ import annotations
 import functools
 import sys
 import time
+from contextlib import contextmanager
 from pathlib import Path
 from typing import Annotated, Callable, Optional
 
@@ -46,6 +47,29 @@ def user_errors(command: Callable) -> Callable:
             raise typer.Exit(exc.exit_code) from None
 
     return wrapper
+
+
+@contextmanager
+def progress_bar(label: str, *, enabled: bool):
+    """A progress bar on stderr (share read, sentences, rate, time left); yields its update function."""
+    if not enabled:
+        yield None
+        return
+    from rich.console import Console
+    from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn, TimeRemainingColumn
+
+    columns = (TextColumn("{task.description}"), BarColumn(), TextColumn("{task.percentage:>3.0f}%"),
+               TextColumn("{task.fields[sentences]} sentences, {task.fields[rate]:.0f}/s"),
+               TimeElapsedColumn(), TextColumn("left"), TimeRemainingColumn())
+    started = time.perf_counter()
+    with Progress(*columns, console=Console(stderr=True)) as bar:
+        task = bar.add_task(label, total=1.0, sentences=0, rate=0.0)
+
+        def update(sentences: int, share: float) -> None:
+            rate = sentences / max(time.perf_counter() - started, 1e-9)
+            bar.update(task, completed=share, sentences=sentences, rate=rate)
+
+        yield update
 
 
 def _roles(value: str | None):
@@ -150,6 +174,9 @@ def extract(
     input_format: Annotated[Optional[str], typer.Option("--input-format", help="text or jsonl (default: by extension).")] = None,
     doc: Annotated[Optional[str], typer.Option(help="Document name for plain text (default: the file name).")] = None,
     batch_size: Annotated[int, typer.Option(help="Sentences per batch.")] = 256,
+    resume: Annotated[bool, typer.Option(help="Continue an interrupted run from what OUTPUT already holds.")] = False,
+    skip_bad: Annotated[bool, typer.Option(help="JSONL input: leave out records with errors (listed).")] = False,
+    progress: Annotated[Optional[bool], typer.Option(help="Show a progress bar (default: when stderr is a terminal).")] = None,
 ) -> None:
     """Apply a model to a book or a JSONL file; offsets into a plain-text file are kept in each record's meta."""
     from trainer.models.apply import extract_file
@@ -157,8 +184,13 @@ def extract(
 
     trained, _ = load_extractor(model)
     fmt = input_format or ("jsonl" if source.suffix == ".jsonl" else "text")
-    summary = extract_file(trained, source, output, input_format=fmt, doc_name=doc, batch_size=batch_size)
-    say(f"{summary.sentences} sentence(s), {summary.events} event(s), {summary.roles} role(s) written to {output}")
+    with progress_bar(f"extracting {source.name}", enabled=sys.stderr.isatty() if progress is None else progress) as update:
+        summary = extract_file(trained, source, output, input_format=fmt, doc_name=doc, batch_size=batch_size,
+                               resume=resume, skip_bad=skip_bad, on_progress=update)
+    for problem in summary.skipped:
+        say(f"skipped {problem}")
+    resumed = f" (after {summary.resumed} kept from the earlier run)" if summary.resumed else ""
+    say(f"{summary.sentences} sentence(s){resumed}, {summary.events} event(s), {summary.roles} role(s) written to {output}")
     if table:
         from trainer.corpus.convert import convert_file
 

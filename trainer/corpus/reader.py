@@ -11,11 +11,11 @@ import hashlib
 import json
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Iterable, Sequence
+from typing import Iterable, Iterator, Sequence
 
-from trainer.corpus.jsonl import record_to_dict
+from trainer.corpus.jsonl import iter_lines, record_to_dict
 from trainer.corpus.records import DEFAULT_ROLES, Record
-from trainer.corpus.validate import Problem, check_files
+from trainer.corpus.validate import Problem, check_files, check_line
 from trainer.errors import CorpusError, UnreadableInputError
 
 MAX_LISTED = 20
@@ -73,6 +73,27 @@ def read_corpus(
             "fix them (run `itinerant check` for the full list) or pass --skip-bad to leave those records out",
         )
     return Corpus(records=[r for _, _, r in check.records], files=files, skipped=errors, warnings=check.warnings)
+
+
+def iter_records(
+    path: Path, *, roles: tuple[str, ...] = DEFAULT_ROLES, skip_bad: bool = False, skipped: list[Problem] | None = None
+) -> Iterator[Record]:
+    """Stream the records of one JSONL file, validating line by line (memory stays flat).
+
+    The first bad record raises :class:`CorpusError` unless ``skip_bad``; then
+    its errors are appended to ``skipped`` and reading goes on. Duplicate ids
+    are caught as in :func:`read_corpus`.
+    """
+    seen: set[str] = set()
+    for number, line in iter_lines(Path(path)):
+        check = check_line(str(path), number, line, roles, seen)
+        if check.errors:
+            if not skip_bad:
+                raise CorpusError("\n".join(str(p) for p in check.errors), "fix the record or pass --skip-bad to leave it out")
+            if skipped is not None:
+                skipped.extend(check.errors)
+            continue
+        yield check.records[0][2]
 
 
 def skipped_summary(corpus: Corpus) -> str:

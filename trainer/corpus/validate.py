@@ -198,6 +198,32 @@ class _LineChecker:
             seen.setdefault(key, i)
 
 
+def check_line(file: str, number: int, line: str, roles: tuple[str, ...], first_seen: dict[str, str] | set[str]) -> FileCheck:
+    """Check one line; ``first_seen`` collects ids (a dict also remembers where each was first seen)."""
+    result = FileCheck()
+    checker = _LineChecker(file, number, roles)
+    try:
+        obj = checker.check(json.loads(line))
+    except json.JSONDecodeError as exc:
+        checker.add("record", f"malformed JSON: {exc.msg} at column {exc.colno}", "each line must be one complete JSON object")
+        obj = None
+    if obj is not None:
+        if obj["id"] in first_seen:
+            where = first_seen[obj["id"]] if isinstance(first_seen, dict) else "an earlier line"
+            checker.add("id", f"duplicate id {obj['id']!r} (first at {where})", "ids must be unique in the corpus")
+            obj = None
+        elif isinstance(first_seen, dict):
+            first_seen[obj["id"]] = f"{file}:{number}"
+        else:
+            first_seen.add(obj["id"])
+    result.problems.extend(checker.problems)
+    if obj is None:
+        result.bad_records += 1
+    else:
+        result.records.append((file, number, record_from_dict(obj)))
+    return result
+
+
 def check_files(paths: Iterable[Path], roles: tuple[str, ...] = DEFAULT_ROLES) -> FileCheck:
     """Check canonical JSONL files together (ids must be unique across all of them).
 
@@ -208,22 +234,8 @@ def check_files(paths: Iterable[Path], roles: tuple[str, ...] = DEFAULT_ROLES) -
     first_seen: dict[str, str] = {}
     for path in paths:
         for number, line in iter_lines(Path(path)):
-            checker = _LineChecker(str(path), number, roles)
-            try:
-                obj = checker.check(json.loads(line))
-            except json.JSONDecodeError as exc:
-                checker.add("record", f"malformed JSON: {exc.msg} at column {exc.colno}", "each line must be one complete JSON object")
-                obj = None
-            if obj is not None:
-                where = f"{path}:{number}"
-                if obj["id"] in first_seen:
-                    checker.add("id", f"duplicate id {obj['id']!r} (first at {first_seen[obj['id']]})", "ids must be unique in the corpus")
-                    obj = None
-                else:
-                    first_seen[obj["id"]] = where
-            result.problems.extend(checker.problems)
-            if obj is None:
-                result.bad_records += 1
-            else:
-                result.records.append((str(path), number, record_from_dict(obj)))
+            one = check_line(str(path), number, line, roles, first_seen)
+            result.records.extend(one.records)
+            result.problems.extend(one.problems)
+            result.bad_records += one.bad_records
     return result

@@ -1,7 +1,16 @@
-"""Applying a trained extractor: to records, to a string, and to whole files in batches."""
+"""Applying a trained extractor: to records, to a string, and to whole files in batches.
+
+File extraction streams: input is read, parsed, labelled and written one batch
+at a time, so memory does not grow with the book. An interrupted run can be
+resumed from its own output: complete records are kept, the torn tail is cut
+(for plain text, back to the start of the last paragraph written), and
+extraction goes on from there, giving the same file as an uninterrupted run.
+"""
 
 from __future__ import annotations
 
+import json
+import os
 from dataclasses import dataclass, field
 from itertools import islice
 from pathlib import Path
@@ -11,13 +20,15 @@ from spacy.language import Language
 from spacy.tokens import Doc
 
 from trainer.corpus.jsonl import dumps_record
-from trainer.corpus.reader import read_corpus
+from trainer.corpus.reader import iter_records
 from trainer.corpus.records import Record
+from trainer.errors import CorpusError
 from trainer.models.training import TrainedExtractor, parser_for
 from trainer.parsing.parse import parse_records
-from trainer.parsing.text import read_text_file, sentence_records
+from trainer.parsing.text import iter_paragraphs, paragraphs, sentence_records
 
 INPUT_FORMATS = ("text", "jsonl")
+Progress = Callable[[int, float], None]  # sentences written so far, share of the input read
 
 
 def predict_records(
@@ -35,18 +46,55 @@ def extract_from_text(trained: TrainedExtractor, text: str, *, doc_name: str = "
                       nlp: Language | None = None) -> list[Record]:
     """Split a string into sentences and extract events from each (offsets kept in ``meta``)."""
     nlp = nlp or parser_for(trained.config)
-    pairs = list(sentence_records(nlp, text, doc_name=doc_name, source="<string>"))
+    pairs = list(sentence_records(nlp, paragraphs(text), doc_name=doc_name, source="<string>"))
     return trained.extractor.predict([r for r, _ in pairs], [d for _, d in pairs])
 
 
 @dataclass
 class ExtractionSummary:
-    """What an extraction run read and wrote."""
+    """What an extraction run read and wrote (``resumed``: records kept from an earlier run)."""
 
     sentences: int = 0
     events: int = 0
     roles: int = 0
+    resumed: int = 0
     skipped: list[str] = field(default_factory=list)
+
+
+@dataclass
+class ResumePoint:
+    """Where an interrupted output file is cut and extraction goes on."""
+
+    keep_bytes: int = 0
+    records: int = 0
+    paragraph: int | None = None
+    last_id: str | None = None
+
+
+def resume_point(target: Path, *, plain_text: bool) -> ResumePoint:
+    """Complete records at the head of ``target``; for plain text, only whole paragraphs."""
+    point = ResumePoint()
+    if not target.exists():
+        return point
+    position = count = 0
+    paragraph_start = (0, 0, None)
+    with open(target, "rb") as handle:
+        for raw in handle:
+            try:
+                obj = json.loads(raw) if raw.endswith(b"\n") else None
+            except ValueError:
+                obj = None
+            if obj is None:
+                break
+            if plain_text and obj.get("meta", {}).get("paragraph") != paragraph_start[2]:
+                paragraph_start = (position, count, obj["meta"]["paragraph"])
+            position += len(raw)
+            count += 1
+            point.last_id = obj["id"]
+    if plain_text and paragraph_start[2] is not None:
+        return ResumePoint(paragraph_start[0], paragraph_start[1], paragraph_start[2])
+    point.keep_bytes, point.records = position, count
+    return point
 
 
 def _batches(items: Iterable, size: int) -> Iterator[list]:
@@ -55,26 +103,56 @@ def _batches(items: Iterable, size: int) -> Iterator[list]:
         yield batch
 
 
+def _text_pairs(nlp: Language, source: Path, doc_name: str, point: ResumePoint,
+                read: list[int]) -> Iterator[tuple[Record, Doc | None]]:
+    def remaining() -> Iterator[tuple[int, str]]:
+        for offset, paragraph in iter_paragraphs(source):
+            read[0] = offset
+            if point.paragraph is None or offset >= point.paragraph:
+                yield offset, paragraph
+
+    return sentence_records(nlp, remaining(), doc_name=doc_name, source=str(source), first_number=point.records + 1)
+
+
+def _jsonl_pairs(trained: TrainedExtractor, source: Path, point: ResumePoint, skipped: list,
+                 read: list[int], skip_bad: bool) -> Iterator[tuple[Record, Doc | None]]:
+    records = iter_records(source, roles=trained.roles, skip_bad=skip_bad, skipped=skipped)
+    for number, record in enumerate(records, start=1):
+        read[0] = number
+        if number < point.records:
+            continue
+        if number == point.records:
+            if record.id != point.last_id:
+                raise CorpusError(f"{source}: record {number} is {record.id!r} but the output to resume ends with "
+                                  f"{point.last_id!r}", "resume only with the same input, or start a new output file")
+            continue
+        yield record, None
+
+
 def extract_file(
     trained: TrainedExtractor, source: Path, target: Path, *, input_format: str = "text", doc_name: str | None = None,
-    batch_size: int = 256, nlp: Language | None = None, skip_bad: bool = False,
-    on_batch: Callable[[int], None] | None = None,
+    batch_size: int = 256, nlp: Language | None = None, skip_bad: bool = False, resume: bool = False,
+    on_progress: Progress | None = None,
 ) -> ExtractionSummary:
-    """Extract events from a plain-text or JSONL file and write canonical JSONL, batch by batch.
+    """Extract events from a plain-text or JSONL file into canonical JSONL, one batch at a time.
 
-    Memory holds one batch at a time; read ``target`` back for tables or comparisons.
+    With ``resume``, an existing ``target`` is continued (see the module docstring);
+    without it, ``target`` is overwritten.
     """
+    source, target = Path(source), Path(target)
     nlp = nlp or parser_for(trained.config)
     summary = ExtractionSummary()
-    if input_format == "text":
-        pairs: Iterable[tuple[Record, Doc | None]] = sentence_records(
-            nlp, read_text_file(source), doc_name=doc_name or source.stem, source=str(source))
-    else:
-        corpus = read_corpus([source], roles=trained.roles, skip_bad=skip_bad)
-        summary.skipped = [f"{p.file}:{p.line}: {p.field}: {p.message}" for p in corpus.skipped]
-        pairs = ((r, None) for r in corpus.records)
+    plain_text = input_format == "text"
+    point = resume_point(target, plain_text=plain_text) if resume else ResumePoint()
+    summary.resumed = point.records
+    read = [0]
+    total = os.path.getsize(source) if plain_text else sum(1 for _ in open(source, "rb"))
+    pairs = (_text_pairs(nlp, source, doc_name or source.stem, point, read) if plain_text
+             else _jsonl_pairs(trained, source, point, summary.skipped, read, skip_bad))
     target.parent.mkdir(parents=True, exist_ok=True)
-    with open(target, "w", encoding="utf-8", newline="\n") as out:
+    if target.exists() and resume:
+        os.truncate(target, point.keep_bytes)
+    with open(target, "a" if resume else "w", encoding="utf-8", newline="\n") as out:
         for batch in _batches(pairs, batch_size):
             records = [r for r, _ in batch]
             docs = [d for _, d in batch] if batch[0][1] is not None else None
@@ -83,6 +161,9 @@ def extract_file(
                 summary.sentences += 1
                 summary.events += len(record.events or ())
                 summary.roles += sum(len(e.roles) for e in record.events or ())
-            if on_batch:
-                on_batch(len(batch))
+            out.flush()
+            if on_progress:
+                on_progress(summary.sentences, min(1.0, read[0] / total) if total else 1.0)
+    if on_progress:
+        on_progress(summary.sentences, 1.0)
     return summary

@@ -1,37 +1,26 @@
 """Plain text into sentence records, keeping offsets into the original file.
 
-A plain-text book is split into paragraphs (blank lines) and each paragraph
-into sentences by the pipeline's parser. Each sentence becomes a record whose
-``meta`` holds the file it came from and the code-point offset of its first
-character in that file (after a UTF-8 byte-order mark, if any, is removed), so
-``offset + span[0]`` points into the original text. The parse is kept with the
-record, so each sentence is parsed once.
+A plain-text book is read paragraph by paragraph (paragraphs end at blank
+lines), so a long book is never held in memory whole, and each paragraph is
+split into sentences by the pipeline's parser. Each sentence becomes a record
+whose ``meta`` holds the source file, the code-point ``offset`` of its first
+character in the file (after a UTF-8 byte-order mark, if any, is dropped;
+line ends are counted as they are, ``\\r\\n`` as two) and the ``paragraph``
+offset it belongs to, so ``offset + span[0]`` points into the original text
+and an interrupted extraction can resume at a paragraph boundary. The parse
+is kept with the record, so each sentence is parsed once.
 """
 
 from __future__ import annotations
 
-import re
+from collections import deque
 from pathlib import Path
-from typing import Iterator
+from typing import Iterable, Iterator
 
 from spacy.language import Language
 from spacy.tokens import Doc
 
 from trainer.corpus.records import Record
-
-_PARAGRAPH_BREAK = re.compile(r"\n[ \t]*\n")
-
-
-def paragraphs(text: str) -> Iterator[tuple[int, str]]:
-    """``(offset, paragraph)`` for each non-blank paragraph, with its surrounding whitespace trimmed."""
-    start = 0
-    for match in list(_PARAGRAPH_BREAK.finditer(text)) + [None]:
-        end = match.start() if match else len(text)
-        chunk = text[start:end]
-        stripped = chunk.strip()
-        if stripped:
-            yield start + (len(chunk) - len(chunk.lstrip())), stripped
-        start = match.end() if match else len(text)
 
 
 def read_text_file(path: Path | str) -> str:
@@ -40,13 +29,57 @@ def read_text_file(path: Path | str) -> str:
         return handle.read()
 
 
+def split_paragraphs(lines: Iterable[str]) -> Iterator[tuple[int, str]]:
+    """``(offset, paragraph)`` for each paragraph of an iterable of lines (line ends kept), whitespace trimmed."""
+    position = 0
+    start = None
+    chunk: list[str] = []
+    for line in lines:
+        if line.strip():
+            if start is None:
+                start = position
+            chunk.append(line)
+        elif chunk:
+            yield _trimmed(start, "".join(chunk))
+            chunk, start = [], None
+        position += len(line)
+    if chunk:
+        yield _trimmed(start, "".join(chunk))
+
+
+def _trimmed(start: int, text: str) -> tuple[int, str]:
+    return start + len(text) - len(text.lstrip()), text.strip()
+
+
+def iter_paragraphs(path: Path | str) -> Iterator[tuple[int, str]]:
+    """Paragraphs of a UTF-8 text file, streamed; offsets as :func:`read_text_file` counts them."""
+    with open(path, encoding="utf-8-sig", newline="") as handle:
+        yield from split_paragraphs(handle)
+
+
+def paragraphs(text: str) -> Iterator[tuple[int, str]]:
+    """Paragraphs of a string (see :func:`split_paragraphs`)."""
+    return split_paragraphs(text.splitlines(keepends=True))
+
+
 def sentence_records(
-    nlp: Language, text: str, *, doc_name: str, source: str, batch_size: int = 32
+    nlp: Language, paragraph_items: Iterable[tuple[int, str]], *, doc_name: str, source: str,
+    batch_size: int = 32, first_number: int = 1,
 ) -> Iterator[tuple[Record, Doc]]:
-    """Sentence records with their parses, in text order, ids ``<doc_name>-s00001``..."""
-    number = 0
-    items = list(paragraphs(text))
-    for (offset, _), parsed in zip(items, nlp.pipe((p for _, p in items), batch_size=batch_size)):
+    """Sentence records with their parses, in text order, ids ``<doc_name>-s00001``...
+
+    ``first_number`` continues the numbering when resuming part-way through a text.
+    """
+    number = first_number - 1
+    pending: deque[int] = deque()  # offsets of paragraphs handed to the parser and not yet returned
+
+    def texts() -> Iterator[str]:
+        for offset, paragraph in paragraph_items:
+            pending.append(offset)
+            yield paragraph
+
+    for parsed in nlp.pipe(texts(), batch_size=batch_size):
+        offset = pending.popleft()
         for sentence in parsed.sents:
             words = [t.i for t in sentence if not t.is_space]
             if not words:
@@ -58,6 +91,6 @@ def sentence_records(
                 doc=doc_name,
                 text=span.text,
                 events=None,
-                meta={"source": source, "offset": offset + span.start_char},
+                meta={"source": source, "offset": offset + span.start_char, "paragraph": offset},
             )
             yield record, span.as_doc()
