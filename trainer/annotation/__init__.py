@@ -12,6 +12,10 @@ Sits above models and evaluation, below reports and the CLI:
 
 See docs/retraining.md for the workflow. Merging does not load spaCy;
 ``suggest_batch`` (which does) is imported on first use.
+
+The package also holds :mod:`trainer.annotation.itinerary` and
+:mod:`trainer.annotation.geo`: itineraries and maps from annotated or
+extracted records (docs/itineraries.md).
 """
 
 from trainer.annotation.merge import MergeResult, merge_batches, merge_files
