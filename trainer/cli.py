@@ -151,7 +151,10 @@ def fit(
     data = read_corpus(corpus, roles=cfg.roles, skip_bad=skip_bad)
     if data.skipped:
         say(skipped_summary(data))
-    annotated = data.annotated()
+    annotated, unreviewed = data.training_records()
+    if unreviewed:
+        say(f"left out {len(unreviewed)} pre-annotated record(s) nobody has reviewed (provenance 'predicted'): "
+            f"{', '.join(unreviewed[:10])}{' ...' if len(unreviewed) > 10 else ''}")
     say(f"training '{cfg.name}' on {len(annotated)} annotated record(s) from {len(data.docs)} doc(s)")
     started = time.perf_counter()
     trained = fit_extractor(annotated, cfg)
@@ -417,6 +420,59 @@ def itinerary(
         say(f"GeoJSON written to {geojson}; {mapped.resolved_mentions} place mention(s) resolved, "
             f"{len(mapped.unresolved)} name(s) unresolved" + (f": {', '.join(mapped.unresolved)}" if mapped.unresolved else ""))
     if corpus.skipped:
+        raise typer.Exit(1)
+
+
+@app.command()
+@user_errors
+def suggest(
+    model: Annotated[Path, typer.Argument(help="Model file written by `itinerant fit`.")],
+    unlabeled: Annotated[Path, typer.Argument(help="Unannotated sentences: JSONL (records without events) or plain text.")],
+    n: Annotated[int, typer.Option("-n", help="How many records to suggest.")] = 50,
+    output: Annotated[Path, typer.Option("--output", "-o", help="The batch to annotate, pre-annotated (canonical JSONL).")] = Path("batch.jsonl"),
+    measure: Annotated[str, typer.Option(help="least_confidence or entropy.")] = "least_confidence",
+    diversity: Annotated[float, typer.Option(help="Weight of the spread over docs and trigger lemmas, 0 to 1.")] = 0.5,
+) -> None:
+    """Pick the sentences the model is least sure of (spread over docs and triggers), pre-annotated for correction."""
+    from trainer.annotation.suggest import suggest_batch
+    from trainer.corpus.jsonl import write_jsonl
+    from trainer.corpus.reader import read_corpus
+    from trainer.models.persist import digest_path
+    from trainer.models.training import load_extractor, parser_for
+    from trainer.parsing.text import iter_paragraphs, sentence_records
+
+    trained, _ = load_extractor(model)
+    nlp = parser_for(trained.config)
+    if unlabeled.suffix == ".jsonl":
+        records = [r for r in read_corpus([unlabeled], roles=trained.roles).records if not r.is_annotated]
+        docs = None
+    else:
+        pairs = list(sentence_records(nlp, iter_paragraphs(unlabeled), doc_name=unlabeled.stem, source=str(unlabeled)))
+        records, docs = [r for r, _ in pairs], [d for _, d in pairs]
+    digest = digest_path(model).read_text(encoding="ascii").split()[0][:12]
+    batch = suggest_batch(trained, records, n, measure=measure, diversity=diversity, nlp=nlp, docs=docs,
+                          model_name=f"{model.name} sha256:{digest}")
+    write_jsonl(batch, output)
+    say(f"{len(batch)} of {len(records)} unannotated record(s) suggested, pre-annotated, written to {output}")
+
+
+@app.command()
+@user_errors
+def merge(
+    corpus: Annotated[list[Path], typer.Argument(help="The annotated corpus (JSONL files or folders).")],
+    batch: Annotated[list[Path], typer.Option("--batch", "-b", help="A corrected batch; repeatable.")],
+    output: Annotated[Path, typer.Option("--output", "-o", help="The merged corpus (may be the corpus file itself).")],
+    roles: RolesOption = None,
+) -> None:
+    """Merge corrected batches into the corpus; conflicts are listed and never resolved silently (exit 1)."""
+    from trainer.annotation.merge import merge_files
+
+    result = merge_files(corpus, batch, output, roles=_roles(roles))
+    for conflict in result.conflicts:
+        typer.echo(f"conflict: {conflict}")
+    say(f"{len(result.added)} added, {len(result.updated)} updated, {len(result.unchanged)} unchanged; "
+        f"{len(result.conflicts)} conflict(s); written to {output}")
+    if result.conflicts:
         raise typer.Exit(1)
 
 

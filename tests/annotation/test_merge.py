@@ -7,7 +7,7 @@ import copy
 import pytest
 
 from trainer.annotation.merge import MergeResult, merge_batches, merge_files, training_records
-from trainer.annotation.provenance import events_digest
+from trainer.corpus.provenance import events_digest
 from trainer.corpus.jsonl import write_jsonl
 from trainer.corpus.reader import read_corpus
 from trainer.corpus.records import Event, Record, RoleSpan

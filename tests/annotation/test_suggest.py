@@ -6,7 +6,7 @@ import random
 
 import pytest
 
-from trainer.annotation.provenance import events_digest
+from trainer.corpus.provenance import events_digest
 from trainer.annotation.suggest import NO_TRIGGER, Candidate, near_duplicates, select_batch, suggest_batch
 from trainer.config import config_from_dict
 from trainer.corpus.reader import read_corpus

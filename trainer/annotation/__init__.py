@@ -7,7 +7,7 @@ Sits above models and evaluation, below reports and the CLI:
   pre-annotates them;
 - :mod:`trainer.annotation.merge`: :func:`merge_batches` brings corrected
   batches back into the corpus and reports conflicts;
-- :mod:`trainer.annotation.provenance`: ``predicted`` / ``corrected`` /
+- :mod:`trainer.corpus.provenance`: ``predicted`` / ``corrected`` /
   ``gold`` and :func:`training_records`, which refuses unreviewed predictions.
 
 See docs/retraining.md for the workflow. Merging does not load spaCy;
@@ -19,7 +19,7 @@ extracted records (docs/itineraries.md).
 """
 
 from trainer.annotation.merge import MergeResult, merge_batches, merge_files
-from trainer.annotation.provenance import CORRECTED, GOLD, PREDICTED, PROVENANCES, training_records
+from trainer.corpus.provenance import CORRECTED, GOLD, PREDICTED, PROVENANCES, training_records
 
 __all__ = ["CORRECTED", "GOLD", "PREDICTED", "PROVENANCES", "MergeResult", "merge_batches", "merge_files",
            "suggest_batch", "training_records"]

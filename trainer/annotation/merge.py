@@ -4,7 +4,7 @@
 (records matched by ``id``). For each id found in the batches:
 
 1. each occurrence's provenance is resolved
-   (:func:`~trainer.annotation.provenance.resolve_provenance`): an edited
+   (:func:`~trainer.corpus.provenance.resolve_provenance`): an edited
    pre-annotation becomes ``corrected``; reviewed records lose the model's
    confidences; a record with an unreadable provenance is a conflict;
 2. occurrences in several batches (or twice in one) must agree on text and
@@ -34,7 +34,7 @@ from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Sequence
 
-from trainer.annotation.provenance import (
+from trainer.corpus.provenance import (
     META_KEY, PREDICTED, REVIEWED, events_key, itinerant_meta, provenance_of, provenance_problem,
     resolve_provenance, training_records,
 )

@@ -27,7 +27,7 @@ their existing ``meta`` keys, and ``meta["itinerant"]``::
     {"provenance": "predicted", "uncertainty": 0.8123, "rank": 1, "model": "crf-crf",
      "measure": "least_confidence", "prediction_digest": "3f2a..."}
 
-See :mod:`trainer.annotation.provenance` for what happens to them next.
+See :mod:`trainer.corpus.provenance` for what happens to them next.
 """
 
 from __future__ import annotations
@@ -39,7 +39,7 @@ from typing import Sequence
 from spacy.language import Language
 from spacy.tokens import Doc
 
-from trainer.annotation.provenance import META_KEY, PREDICTED, events_digest
+from trainer.corpus.provenance import META_KEY, PREDICTED, events_digest
 from trainer.corpus.records import Record
 from trainer.errors import ConfigError, CorpusError
 from trainer.models.training import TrainedExtractor, parser_for

@@ -14,6 +14,7 @@ from pathlib import Path
 from typing import Iterable, Iterator, Sequence
 
 from trainer.corpus.jsonl import iter_lines, record_to_dict
+from trainer.corpus.provenance import training_records
 from trainer.corpus.records import DEFAULT_ROLES, Record
 from trainer.corpus.validate import Problem, check_files, check_line
 from trainer.errors import CorpusError, UnreadableInputError
@@ -36,8 +37,12 @@ class Corpus:
         return list(dict.fromkeys(r.doc for r in self.records))
 
     def annotated(self) -> list[Record]:
-        """Records that carry gold annotation (including negatives)."""
+        """Records that carry annotation (including negatives), whatever their provenance."""
         return [r for r in self.records if r.is_annotated]
+
+    def training_records(self) -> tuple[list[Record], list[str]]:
+        """Annotated records a model may learn from, and the ids of unreviewed pre-annotations refused."""
+        return training_records(self.records)
 
 
 def expand_paths(paths: Iterable[Path | str], pattern: str = "*.jsonl") -> list[Path]:

@@ -53,16 +53,18 @@ class Featurizer:
         """One feature dict per token, without trigger-relative features."""
         gazetteer_tags = self.gazetteer.tags(doc) if self.gazetteer else ["O"] * len(doc)
         own: list[groups.Features] = []
+        needs_gov = "syntax" in self.groups or "lexicon" in self.groups
         for token in doc:
+            gov = groups.governing_preposition(token) if needs_gov else ""
             features: groups.Features = {"bias": 1.0}
             if "lexical" in self.groups:
                 features.update(groups.lexical(token, self.config.affix_length))
             if "tagging" in self.groups:
                 features.update(groups.tagging(token))
             if "syntax" in self.groups:
-                features.update(groups.syntax(token))
+                features.update(groups.syntax(token, gov))
             if "lexicon" in self.groups:
-                features.update(groups.lexicon(token, self.lexicons, gazetteer_tags[token.i]))
+                features.update(groups.lexicon(token, self.lexicons, gazetteer_tags[token.i], gov))
             own.append(features)
         if "context" not in self.groups:
             return own

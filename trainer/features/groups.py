@@ -87,14 +87,18 @@ def depth(token: Token) -> int:
     return steps
 
 
-def syntax(token: Token) -> Features:
-    """Dependency label, head, governing preposition, children's prepositions, depth, voice."""
+def syntax(token: Token, gov: str | None = None) -> Features:
+    """Dependency label, head, governing preposition, children's prepositions, depth, voice.
+
+    ``gov`` is the token's governing preposition when the caller has it already.
+    """
+    gov = governing_preposition(token) if gov is None else gov
     features: Features = {
         "dep": token.dep_,
         "head_lemma": token.head.lemma_.lower(),
         "head_pos": token.head.pos_,
         "head_dep": f"{token.dep_}<{token.head.pos_}",
-        "gov_prep": governing_preposition(token) or "-",
+        "gov_prep": gov or "-",
         "depth": str(min(depth(token), 6)),
         "passive_subject": token.dep_ in {"nsubjpass", "csubjpass"},
         "passive_verb": any(c.dep_ == "auxpass" for c in token.children),
@@ -109,6 +113,8 @@ def syntax(token: Token) -> Features:
 
 def preposition_cue(doc: Doc, i: int, lexicons: Lexicons) -> str:
     """The role cued by a (possibly multiword) preposition starting at or ending on token i."""
+    if doc[i].lower_ not in lexicons.preposition_words:
+        return ""
     for length in range(_MAX_PREP_WORDS, 0, -1):
         for start in range(i - length + 1, i + 1):
             if start < 0 or start + length > len(doc):
@@ -119,8 +125,13 @@ def preposition_cue(doc: Doc, i: int, lexicons: Lexicons) -> str:
     return ""
 
 
-def lexicon(token: Token, lexicons: Lexicons, gazetteer_tag: str = "O") -> Features:
-    """Motion-verb or motion-noun class, preposition cues, direction words, gazetteer membership."""
+def lexicon(token: Token, lexicons: Lexicons, gazetteer_tag: str = "O", gov: str | None = None) -> Features:
+    """Motion-verb or motion-noun class, preposition cues, direction words, gazetteer membership.
+
+    A preposition gets the role it cues (``prep_cue``); a word inside a
+    prepositional phrase gets the role its governing preposition cues
+    (``gov_prep_cue``; pass ``gov`` when already computed).
+    """
     lemma = token.lemma_.lower()
     features: Features = {"gazetteer": gazetteer_tag, "direction": token.lower_ in lexicons.directions}
     if token.pos_ in {"VERB", "AUX"}:
@@ -132,7 +143,11 @@ def lexicon(token: Token, lexicons: Lexicons, gazetteer_tag: str = "O") -> Featu
                 features["verb_class"] = phrasal
     elif token.pos_ == "NOUN":
         features["noun_class"] = lexicons.noun_class(lemma) or "-"
-    gov = governing_preposition(token)
+    elif token.pos_ in {"ADP", "ADV", "SCONJ", "PART"}:
+        cue = preposition_cue(token.doc, token.i, lexicons)
+        if cue:
+            features["prep_cue"] = cue
+    gov = governing_preposition(token) if gov is None else gov
     if gov:
         features["gov_prep_cue"] = lexicons.preposition_role(gov) or "-"
     return features

@@ -105,6 +105,11 @@ class Lexicons:
         """The role cued by a preposition (``"from"``, ``"as far as"``), or None if not listed."""
         return self.prepositions.get(_normalize(word_or_phrase))
 
+    @functools.cached_property
+    def preposition_words(self) -> frozenset[str]:
+        """Every word that occurs in a listed preposition: a quick test before trying phrases."""
+        return frozenset(word for phrase in self.prepositions for word in phrase.split())
+
 
 def _parse(text: str, *, source: str, kind: str) -> _Entries:
     """Parse the text of one lexicon file into its entries, one tuple of fields each.

@@ -118,19 +118,21 @@ class MotionExtractor:
         self.alignment_ = targets.alignment
         if self.config.trigger_model.search or self.config.role_model.search:
             self._search(records, docs, targets)
-        self.trigger_finder.fit(docs, targets.triggers)
+        features = [self.featurizer.token_features(d) for d in docs]  # computed once, shared by both stages
+        self.trigger_finder.fit(docs, targets.triggers, features)
         with_triggers = [i for i, ts in enumerate(targets.triggers) if ts]
         self.role_labeller.fit([docs[i] for i in with_triggers], [targets.triggers[i] for i in with_triggers],
-                               [targets.roles[i] for i in with_triggers])
+                               [targets.roles[i] for i in with_triggers], [features[i] for i in with_triggers])
         return self
 
     def predict(self, records: Sequence[Record], docs: Sequence[Doc], *, gold_triggers: bool = False) -> list[Record]:
         """Records carrying predicted events with confidences (``gold_triggers``: label roles of the gold triggers)."""
+        features = [self.featurizer.token_features(d) for d in docs]  # computed once, shared by both stages
         if gold_triggers:
             triggers = [[(f, e, 1.0) for f, e in ts] for ts in gold_targets(records, docs).triggers]
         else:
-            triggers = self.trigger_finder.predict(docs)
-        roles = self.role_labeller.predict(docs, triggers)
+            triggers = self.trigger_finder.predict(docs, features)
+        roles = self.role_labeller.predict(docs, triggers, features)
         out = []
         for record, doc, sentence_triggers, sentence_roles in zip(records, docs, triggers, roles):
             events = [

@@ -68,10 +68,11 @@ class RuleTriggerFinder:
     def __init__(self, lexicons: Lexicons) -> None:
         self.lexicons = lexicons
 
-    def fit(self, docs: Sequence[Doc], triggers: Sequence) -> "RuleTriggerFinder":
+    def fit(self, docs: Sequence[Doc], triggers: Sequence, features: Sequence | None = None) -> "RuleTriggerFinder":
         return self
 
-    def predict(self, docs: Sequence[Doc]) -> list[list[tuple[int, int, float]]]:
+    def predict(self, docs: Sequence[Doc], features: Sequence | None = None) -> list[list[tuple[int, int, float]]]:
+        """Motion-lexicon triggers per sentence (``features`` is accepted for a common interface and unused)."""
         out = []
         for doc in docs:
             found = []
@@ -92,7 +93,7 @@ class RuleRoleLabeller:
     def __init__(self, lexicons: Lexicons) -> None:
         self.lexicons = lexicons
 
-    def fit(self, docs: Sequence[Doc], triggers: Sequence, roles: Sequence) -> "RuleRoleLabeller":
+    def fit(self, docs: Sequence[Doc], triggers: Sequence, roles: Sequence, features: Sequence | None = None) -> "RuleRoleLabeller":
         return self
 
     def _subject(self, verb: Token) -> Token | None:
@@ -122,5 +123,6 @@ class RuleRoleLabeller:
                 found.append((*phrase_span(token), role, 1.0))
         return sorted(set(found))
 
-    def predict(self, docs, triggers) -> list[list[list[tuple[int, int, str, float]]]]:
+    def predict(self, docs, triggers, features=None) -> list[list[list[tuple[int, int, str, float]]]]:
+        """Roles per trigger from dependency patterns (``features`` is unused, as for the trigger rules)."""
         return [[self._roles(doc, tuple(t[:2])) for t in sentence] for doc, sentence in zip(docs, triggers)]

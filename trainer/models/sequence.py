@@ -11,6 +11,7 @@ from __future__ import annotations
 from typing import Any, Sequence
 
 import numpy as np
+import pycrfsuite
 import sklearn_crfsuite
 from sklearn.base import BaseEstimator
 from sklearn.feature_extraction import DictVectorizer
@@ -73,13 +74,18 @@ class CRFTagger(BaseEstimator):
         return [list(tags) for tags in self._fitted().predict(list(X))] if len(X) else []
 
     def predict_spans(self, X: Sequence[Sentence]) -> list[list[SpanGuess]]:
-        """Spans per sentence with the mean marginal probability of their tags, above the threshold."""
-        if not len(X):
-            return []
-        crf = self._fitted()
+        """Spans per sentence with the mean marginal probability of their tags, above the threshold.
+
+        One pass per sentence: the CRFsuite tagger is given the sentence once,
+        then asked for the best tags and for the marginals of the tagged tokens only.
+        """
+        tagger = self._fitted().tagger_
         out = []
-        for tags, marginals in zip(crf.predict(list(X)), crf.predict_marginals(list(X))):
-            spans = _spans_with_probabilities(list(tags), marginals)
+        for features in X:
+            tagger.set(pycrfsuite.ItemSequence(features))
+            tags = tagger.tag()
+            marginals = [{tag: tagger.marginal(tag, i)} if tag != "O" else {} for i, tag in enumerate(tags)]
+            spans = _spans_with_probabilities(tags, marginals)
             out.append([s for s in spans if s[3] >= self.threshold])
         return out
 

@@ -40,14 +40,17 @@ class SequenceTriggerFinder:
         self.tagger = tagger
         self.featurizer = featurizer
 
-    def fit(self, docs: Sequence[Doc], triggers: Sequence[list[TokenRange]]) -> "SequenceTriggerFinder":
-        X = [self.featurizer.token_features(d) for d in docs]
+    def fit(self, docs: Sequence[Doc], triggers: Sequence[list[TokenRange]],
+            features: Sequence[list[dict]] | None = None) -> "SequenceTriggerFinder":
+        X = features if features is not None else [self.featurizer.token_features(d) for d in docs]
         y = [bio_tags(d, [(t, TRIGGER_LABEL) for t in ts]) for d, ts in zip(docs, triggers)]
         self.tagger.fit(X, y)
         return self
 
-    def predict(self, docs: Sequence[Doc]) -> list[list[tuple[int, int, float]]]:
-        guesses = self.tagger.predict_spans([self.featurizer.token_features(d) for d in docs])
+    def predict(self, docs: Sequence[Doc], features: Sequence[list[dict]] | None = None) -> list[list[tuple[int, int, float]]]:
+        """Trigger ranges with probabilities; ``features`` reuses token features already computed for ``docs``."""
+        features = features if features is not None else [self.featurizer.token_features(d) for d in docs]
+        guesses = self.tagger.predict_spans(features)
         return [[(first, end, p) for first, end, _, p in sentence] for sentence in guesses]
 
 
@@ -58,22 +61,25 @@ class SequenceRoleLabeller:
         self.tagger = tagger
         self.featurizer = featurizer
 
-    def _sequences(self, docs: Sequence[Doc], triggers: Sequence[Sequence[TokenRange]]) -> list[list[dict]]:
+    def _sequences(self, docs: Sequence[Doc], triggers: Sequence[Sequence[TokenRange]],
+                   features: Sequence[list[dict]] | None = None) -> list[list[dict]]:
         out = []
-        for doc, sentence_triggers in zip(docs, triggers):
-            base = self.featurizer.token_features(doc) if sentence_triggers else []
+        for k, (doc, sentence_triggers) in enumerate(zip(docs, triggers)):
+            if not sentence_triggers:
+                continue
+            base = features[k] if features is not None else self.featurizer.token_features(doc)
             out.extend(self.featurizer.role_features(doc, tuple(t[:2]), base) for t in sentence_triggers)
         return out
 
-    def fit(self, docs, triggers, roles) -> "SequenceRoleLabeller":
-        X = self._sequences(docs, triggers)
+    def fit(self, docs, triggers, roles, features=None) -> "SequenceRoleLabeller":
+        X = self._sequences(docs, triggers, features)
         y = [bio_tags(doc, [((f, e), r) for f, e, r in event_roles])
              for doc, doc_roles in zip(docs, roles) for event_roles in doc_roles]
         self.tagger.fit(X, y)
         return self
 
-    def predict(self, docs, triggers) -> list[list[list[tuple[int, int, str, float]]]]:
-        flat = iter(self.tagger.predict_spans(self._sequences(docs, triggers)) if any(triggers) else [])
+    def predict(self, docs, triggers, features=None) -> list[list[list[tuple[int, int, str, float]]]]:
+        flat = iter(self.tagger.predict_spans(self._sequences(docs, triggers, features)) if any(triggers) else [])
         return [[next(flat) for _ in sentence_triggers] for sentence_triggers in triggers]
 
 
@@ -112,16 +118,18 @@ class CandidateRoleLinker(BaseEstimator):
             rows.append(row)
         return spans, rows
 
-    def _all_pairs(self, docs, triggers):
-        for doc, sentence_triggers in zip(docs, triggers):
-            base = self.featurizer.token_features(doc) if sentence_triggers else []
+    def _all_pairs(self, docs, triggers, features=None):
+        for k, (doc, sentence_triggers) in enumerate(zip(docs, triggers)):
+            if not sentence_triggers:
+                continue
+            base = features[k] if features is not None else self.featurizer.token_features(doc)
             for trigger in sentence_triggers:
                 yield self._pairs(doc, tuple(trigger[:2]), base)
 
-    def fit(self, docs, triggers, roles) -> "CandidateRoleLinker":
+    def fit(self, docs, triggers, roles, features=None) -> "CandidateRoleLinker":
         rows, labels, self.unreachable_ = [], [], 0
         gold_iter = (event_roles for doc_roles in roles for event_roles in doc_roles)
-        for (spans, pair_rows), event_roles in zip(self._all_pairs(docs, triggers), gold_iter):
+        for (spans, pair_rows), event_roles in zip(self._all_pairs(docs, triggers, features), gold_iter):
             gold = {(f, e): r for f, e, r in reversed(event_roles)}
             self.unreachable_ += len(set(gold) - set(spans))
             rows.extend(pair_rows)
@@ -134,10 +142,10 @@ class CandidateRoleLinker(BaseEstimator):
         self.model_.fit(self.vectorizer_.fit_transform(rows), labels)
         return self
 
-    def predict(self, docs, triggers) -> list[list[list[tuple[int, int, str, float]]]]:
+    def predict(self, docs, triggers, features=None) -> list[list[list[tuple[int, int, str, float]]]]:
         classes = list(self.model_.classes_)
         flat = []
-        for spans, rows in self._all_pairs(docs, triggers):
+        for spans, rows in self._all_pairs(docs, triggers, features):
             chosen = []
             if rows:
                 for span, probs in zip(spans, self.model_.predict_proba(self.vectorizer_.transform(rows))):

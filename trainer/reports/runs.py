@@ -82,7 +82,9 @@ def crossval_report(
         options.test_docs = tuple(test_docs)
     settings = settings or EvaluationSettings(mode=evaluation.mode, bootstrap_samples=evaluation.bootstrap_samples,
                                               bootstrap_unit=evaluation.bootstrap_unit, seed=evaluation.seed)
-    records = corpus.annotated()
+    records, unreviewed = corpus.training_records()
+    if unreviewed and progress:
+        progress(f"left out {len(unreviewed)} unreviewed pre-annotated record(s) (provenance 'predicted')")
     plans = plan_folds(records, options)
     run = run_crossval(records, configs, plans, jobs=jobs, scheduler=scheduler, progress=progress)
     summary = summarise(run, settings)

@@ -3,7 +3,7 @@
 Three values:
 
 - ``predicted``: a model's pre-annotation that nobody has reviewed yet
-  (written by :func:`trainer.annotation.suggest.suggest_batch`);
+  (written by ``trainer.annotation.suggest.suggest_batch``);
 - ``corrected``: a pre-annotation a person changed (the events differ from
   the prediction), or one the annotator marked ``corrected``;
 - ``gold``: annotated by a person from scratch, or a pre-annotation a person

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import pytest
 
-from trainer.annotation.provenance import (
+from trainer.corpus.provenance import (
     events_digest, events_key, provenance_of, provenance_problem, resolve_provenance, training_records,
 )
 from trainer.corpus.records import Event, Record, RoleSpan
