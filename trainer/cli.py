@@ -218,13 +218,14 @@ def _settings(configs: list[Path], mode: str | None, seed: int | None, samples: 
 
 
 def _fold_options(configs: list[Path], folds: int | None, repeats: int | None, seed: int | None,
-                  leave_one_out: bool, test_docs: str | None):
+                  leave_one_out: bool, test_docs: str | None, by_book: bool = False):
     from trainer.config import load_config
     from trainer.reports.runs import FoldOptions
 
     evaluation = load_config(configs[0] if configs else None).evaluation
     return FoldOptions(folds=folds or evaluation.folds, repeats=repeats or evaluation.repeats,
                        seed=evaluation.seed if seed is None else seed, leave_one_doc_out=leave_one_out,
+                       leave_one_book_out=by_book,
                        test_docs=tuple(d.strip() for d in test_docs.split(",") if d.strip()) if test_docs else ())
 
 
@@ -246,6 +247,7 @@ def crossval(
     folds: FoldsOption = None,
     repeats: Annotated[Optional[int], typer.Option(help="Repeat the K folds with other shuffles.")] = None,
     leave_one_doc_out: Annotated[bool, typer.Option("--leave-one-doc-out", help="One fold per doc.")] = False,
+    leave_one_book_out: Annotated[bool, typer.Option("--leave-one-book-out", help="One fold per book (docs named <book>-<n>): domain shift.")] = False,
     test_docs: Annotated[Optional[str], typer.Option(help="Fixed split: comma-separated docs to test on.")] = None,
     test: Annotated[list[Path], typer.Option("--test", help="Fixed split: held-out test files (train on CORPUS).")] = [],
     mode: ModeOption = None,
@@ -261,7 +263,8 @@ def crossval(
     from trainer.reports.runs import crossval_report
 
     report = crossval_report(
-        corpus, config, output, fold_options=_fold_options(config, folds, repeats, seed, leave_one_doc_out, test_docs),
+        corpus, config, output,
+        fold_options=_fold_options(config, folds, repeats, seed, leave_one_doc_out, test_docs, leave_one_book_out),
         settings=_settings(config, mode, seed, bootstrap), test_paths=test, jobs=jobs, scheduler=scheduler,
         curve_shares=_shares(shares) if shares else (), skip_bad=skip_bad, progress=say)
     typer.echo(markdown_summary(report))

@@ -99,3 +99,22 @@ def test_fixed_split_refuses_shared_docs_by_name() -> None:
                                "into the test")
     with pytest.raises(CorpusError, match=r"^a fixed split needs docs on both sides, got 1 training and 0 test docs"):
         fixed_split(["a"], [])
+
+
+def test_leave_one_book_out_holds_out_all_chapters_of_a_book_together():
+    from trainer.evaluation.folds import book_of, leave_one_book_out
+
+    docs = ["varrow-uplands-1", "varrow-uplands-2", "brannick-log-1", "lisle-letters", "brannick-log-2"]
+    plan = leave_one_book_out(docs * 2)
+    assert book_of("varrow-uplands-12") == "varrow-uplands" and book_of("lisle-letters") == "lisle-letters"
+    assert [test for _, test in plan.folds] == [["brannick-log-1", "brannick-log-2"], ["lisle-letters"],
+                                                ["varrow-uplands-1", "varrow-uplands-2"]]
+    for train, test in plan.folds:
+        assert {book_of(d) for d in train}.isdisjoint({book_of(d) for d in test})
+
+
+def test_leave_one_book_out_needs_two_books():
+    from trainer.evaluation.folds import leave_one_book_out
+
+    with pytest.raises(ConfigError, match="at least 2 books"):
+        leave_one_book_out(["varrow-1", "varrow-2"])

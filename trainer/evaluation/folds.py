@@ -11,6 +11,8 @@ and :meth:`FoldPlan.assignment` is what reports record.
 
 from __future__ import annotations
 
+import re
+
 from collections import Counter
 from dataclasses import dataclass
 from typing import Any, Sequence
@@ -95,6 +97,23 @@ def leave_one_doc_out(docs: Sequence[str]) -> FoldPlan:
         raise ConfigError(f"leave-one-doc-out needs at least 2 docs, got {len(groups)}",
                           "add documents, or evaluate on a fixed split")
     return FoldPlan("leave_one_doc_out", None, [_fold(groups, {doc}) for doc in groups])
+
+
+def book_of(doc: str) -> str:
+    """The book a doc belongs to: its name without a trailing chapter number (``varrow-uplands-2`` -> ``varrow-uplands``)."""
+    return re.sub(r"-\d+$", "", doc)
+
+
+def leave_one_book_out(docs: Sequence[str]) -> FoldPlan:
+    """One fold per book (see :func:`book_of`): all of a book's docs held out together, for domain-shift tests."""
+    groups = sorted(set(docs))
+    books: dict[str, set[str]] = {}
+    for doc in groups:
+        books.setdefault(book_of(doc), set()).add(doc)
+    if len(books) < 2:
+        raise ConfigError(f"leave-one-book-out needs at least 2 books, got {len(books)} ({sorted(books)})",
+                          "name docs <book>-<chapter number>, or use a fixed split with --test-docs")
+    return FoldPlan("leave_one_book_out", None, [_fold(groups, books[book]) for book in sorted(books)])
 
 
 def fixed_split(train_docs: Sequence[str], test_docs: Sequence[str]) -> FoldPlan:

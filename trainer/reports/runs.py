@@ -21,7 +21,7 @@ from trainer.evaluation.crossval import Progress, run_crossval
 from trainer.evaluation.curve import learning_curve
 from trainer.evaluation.error_analysis import error_analysis
 from trainer.evaluation.extrapolate import extrapolate_curve, extrapolation_report
-from trainer.evaluation.folds import FoldPlan, fixed_split, grouped_kfold, leave_one_doc_out
+from trainer.evaluation.folds import FoldPlan, fixed_split, grouped_kfold, leave_one_book_out, leave_one_doc_out
 from trainer.evaluation.scoring import count_corpus
 from trainer.evaluation.significance import compare_f1s
 from trainer.evaluation.summary import EvaluationSettings, summarise
@@ -37,6 +37,7 @@ class FoldOptions:
     repeats: int = 1
     seed: int = 13
     leave_one_doc_out: bool = False
+    leave_one_book_out: bool = False
     test_docs: tuple[str, ...] = ()
 
 
@@ -50,6 +51,8 @@ def plan_folds(records: Sequence[Record], options: FoldOptions) -> list[FoldPlan
         return [fixed_split(sorted(set(docs) - set(options.test_docs)), options.test_docs)]
     if options.leave_one_doc_out:
         return [leave_one_doc_out(docs)]
+    if options.leave_one_book_out:
+        return [leave_one_book_out(docs)]
     return grouped_kfold(docs, options.folds, seed=options.seed, repeats=options.repeats)
 
 
