@@ -7,8 +7,9 @@ index) in the shape spaCy's English pipeline gives these sentences.
 from __future__ import annotations
 
 import pytest
-import spacy
 from spacy.tokens import Doc
+
+from tests.hand_parsed import VOCAB, make_doc
 
 from trainer.config import FEATURE_GROUPS, FeatureConfig
 from trainer.features import groups
@@ -16,24 +17,7 @@ from trainer.features.extract import Featurizer
 from trainer.features.gazetteer import Gazetteer
 from trainer.features.lexicons import Lexicons, load_lexicons
 
-VOCAB = spacy.blank("en").vocab
 LEXICONS: Lexicons = load_lexicons()
-
-
-def make_doc(table: str, ents: list[str] | None = None) -> Doc:
-    """A Doc from rows 'word lemma UPOS tag dep head'; a space after every word but the last."""
-    rows = [line.split() for line in table.strip().splitlines()]
-    return Doc(
-        VOCAB,
-        words=[r[0] for r in rows],
-        spaces=[True] * (len(rows) - 1) + [False],
-        lemmas=[r[1] for r in rows],
-        pos=[r[2] for r in rows],
-        tags=[r[3] for r in rows],
-        deps=[r[4] for r in rows],
-        heads=[int(r[5]) for r in rows],
-        ents=ents,
-    )
 
 
 RODE = """

@@ -3,29 +3,13 @@
 from __future__ import annotations
 
 import pytest
-import spacy
 from spacy.tokens import Doc
+
+from tests.hand_parsed import VOCAB, make_doc
 
 from trainer.features.gazetteer import Gazetteer
 from trainer.models.candidates import candidate_phrases, phrase_span
 
-VOCAB = spacy.blank("en").vocab
-
-
-def make_doc(table: str) -> Doc:
-    """A Doc from rows 'word lemma UPOS tag dep head' (head '-' and dep '-' for no tree)."""
-    rows = [line.split() for line in table.strip().splitlines()]
-    tree = rows[0][5] != "-"
-    return Doc(
-        VOCAB,
-        words=[r[0] for r in rows],
-        spaces=[True] * (len(rows) - 1) + [False],
-        lemmas=[r[1] for r in rows],
-        pos=[r[2] for r in rows],
-        tags=[r[3] for r in rows],
-        deps=[r[4] for r in rows] if tree else None,
-        heads=[int(r[5]) for r in rows] if tree else None,
-    )
 
 
 REACHED = make_doc("""
