@@ -9,7 +9,7 @@ from __future__ import annotations
 import pytest
 from spacy.tokens import Doc
 
-from tests.hand_parsed import VOCAB, make_doc
+from tests.hand_parsed import make_doc
 
 from trainer.config import FEATURE_GROUPS, FeatureConfig
 from trainer.features import groups
