@@ -133,3 +133,20 @@ def test_crossval_with_two_configs_writes_the_three_report_forms(tmp_path, demo_
     contrasted = runner.invoke(app, ["contrast", str(out), str(out), "--system-b", "rules", "--trials", "199"])
     assert contrasted.exit_code == 0, contrasted.output
     assert "| micro |" in contrasted.output
+
+
+@pytest.mark.slow
+def test_crossval_fixed_split_from_test_files(tmp_path, demo_train, demo_test):
+    rules = tmp_path / "rules.toml"
+    rules.write_text('[trigger_model]\nkind = "rules"\n[role_model]\nkind = "rules"\n', encoding="utf-8")
+    out = tmp_path / "run"
+    result = runner.invoke(app, ["crossval", str(demo_train / "quarne-salt-1.jsonl"), "--test", str(demo_test),
+                                 "-c", str(rules), "--bootstrap", "100", "-o", str(out)])
+    assert result.exit_code == 0, result.output
+    folds = json.loads((out / "report.json").read_text())["folds"]
+    assert folds[0]["kind"] == "fixed_split"
+    assert folds[0]["folds"][0]["train_docs"] == ["quarne-salt-1"]
+    assert folds[0]["folds"][0]["test_docs"] == ["lisle-letters-1", "ruddock-drove-1"]
+    clash = runner.invoke(app, ["crossval", str(demo_test), "--test", str(demo_test / "lisle-letters-1.jsonl"),
+                                "-c", str(rules), "-o", str(out)])
+    assert clash.exit_code == 1 and "both in the corpus and in the test files" in clash.output

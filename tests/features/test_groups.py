@@ -11,7 +11,7 @@ from spacy.tokens import Doc
 
 from tests.hand_parsed import make_doc
 
-from trainer.config import FEATURE_GROUPS, FeatureConfig
+from trainer.config import FeatureConfig
 from trainer.features import groups
 from trainer.features.extract import Featurizer
 from trainer.features.gazetteer import Gazetteer
@@ -326,7 +326,3 @@ def test_lexicon_gazetteer_tags_through_the_featurizer(rode: Doc) -> None:
     assert [f["gazetteer"] for f in featurizer.token_features(rode)] == ["O", "O", "O", "O", "B", "I", "O", "B", "O"]
     without = Featurizer(FeatureConfig(groups=["lexicon"]), LEXICONS)
     assert {f["gazetteer"] for f in without.token_features(rode)} == {"O"}
-
-
-def test_every_config_group_has_a_spec() -> None:
-    assert tuple(spec.name for spec in groups.GROUPS) == FEATURE_GROUPS

@@ -276,21 +276,3 @@ def trigger_relative_all(doc: Doc, trigger: tuple[int, int], lexicons: Lexicons)
     """:func:`trigger_relative` for every token of ``doc``, with the trigger's own parts computed once."""
     info = _trigger(doc, trigger, lexicons)
     return [_relative(token, info) for token in doc]
-
-
-@dataclass(frozen=True)
-class GroupSpec:
-    """A feature group's name and one line on what it captures (shown in docs and reports)."""
-
-    name: str
-    summary: str
-
-
-GROUPS: tuple[GroupSpec, ...] = (
-    GroupSpec("lexical", "lower form, lemma, shape, prefix/suffix, title/upper case, digits"),
-    GroupSpec("tagging", "POS, fine tag, named-entity type and IOB"),
-    GroupSpec("context", "lexical and tagging features of neighbouring tokens"),
-    GroupSpec("syntax", "dependency label, head lemma/POS, governing preposition, children's prepositions, depth, voice"),
-    GroupSpec("trigger_relative", "side, distance bucket, dependency path to the trigger, subtree, trigger lemma and class"),
-    GroupSpec("lexicon", "motion-verb/noun class, preposition role cues, direction words, gazetteer"),
-)

@@ -27,7 +27,6 @@ from trainer.models.training import TrainedExtractor, parser_for
 from trainer.parsing.parse import parse_records
 from trainer.parsing.text import iter_paragraphs, paragraphs, sentence_records
 
-INPUT_FORMATS = ("text", "jsonl")
 Progress = Callable[[int, float], None]  # sentences written so far, share of the input read
 
 

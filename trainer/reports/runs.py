@@ -63,11 +63,17 @@ def load_inputs(corpus_paths: Sequence[Path], config_paths: Sequence[Path], *, t
     roles = configs[0].roles
     if any(c.roles != roles for c in configs):
         raise ConfigError("configs use different role inventories", "compare configs with the same [corpus] roles")
-    corpus = read_corpus(list(corpus_paths) + list(test_paths), roles=roles, skip_bad=skip_bad)
-    test_docs: list[str] = []
-    if test_paths:
-        test_docs = sorted({r.doc for r in read_corpus(test_paths, roles=roles, skip_bad=skip_bad).records})
-    return configs, corpus, test_docs
+    corpus = read_corpus(corpus_paths, roles=roles, skip_bad=skip_bad)
+    if not test_paths:
+        return configs, corpus, []
+    test = read_corpus(test_paths, roles=roles, skip_bad=skip_bad)
+    shared = sorted({r.id for r in corpus.records} & {r.id for r in test.records})
+    if shared:
+        raise CorpusError(f"{len(shared)} record id(s) are both in the corpus and in the test files, e.g. {shared[:5]}",
+                          "a held-out test file must not repeat training records")
+    combined = Corpus(corpus.records + test.records, corpus.files + test.files, corpus.skipped + test.skipped,
+                      corpus.warnings + test.warnings)
+    return configs, combined, sorted({r.doc for r in test.records})
 
 
 def crossval_report(
