@@ -7,6 +7,17 @@ from spacy.tokens import Doc
 
 VOCAB = spacy.blank("en").vocab
 
+# 'We reached the island of Tarn.' as spaCy's English pipeline parses it.
+REACHED_TARN = """
+We       we       PRON   PRP  nsubj  1
+reached  reach    VERB   VBD  ROOT   1
+the      the      DET    DT   det    3
+island   island   NOUN   NN   dobj   1
+of       of       ADP    IN   prep   3
+Tarn     Tarn     PROPN  NNP  pobj   4
+.        .        PUNCT  .    punct  1
+"""
+
 
 def make_doc(table: str, ents: list[str] | None = None) -> Doc:
     """A Doc from rows 'word lemma UPOS tag dep head', a space after every word but the last.

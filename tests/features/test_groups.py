@@ -9,7 +9,7 @@ from __future__ import annotations
 import pytest
 from spacy.tokens import Doc
 
-from tests.hand_parsed import make_doc
+from tests.hand_parsed import REACHED_TARN, make_doc
 
 from trainer.config import FeatureConfig
 from trainer.features import groups
@@ -54,15 +54,7 @@ Tell    Tell    PROPN  NNP  compound  10
 Amar    Amar    PROPN  NNP  pobj      8
 .       .       PUNCT  .    punct     1
 """
-REACHED = """
-We       we       PRON   PRP  nsubj  1
-reached  reach    VERB   VBD  ROOT   1
-the      the      DET    DT   det    3
-island   island   NOUN   NN   dobj   1
-of       of       ADP    IN   prep   3
-Tarn     Tarn     PROPN  NNP  pobj   4
-.        .        PUNCT  .    punct  1
-"""
+REACHED = REACHED_TARN
 SET_OUT = """
 We         we         PRON   PRP  nsubj   1
 set        set        VERB   VBD  ROOT    1

@@ -5,22 +5,14 @@ from __future__ import annotations
 import pytest
 from spacy.tokens import Doc
 
-from tests.hand_parsed import VOCAB, make_doc
+from tests.hand_parsed import REACHED_TARN, VOCAB, make_doc
 
 from trainer.features.gazetteer import Gazetteer
 from trainer.models.candidates import candidate_phrases, phrase_span
 
 
 
-REACHED = make_doc("""
-We       we       PRON   PRP  nsubj  1
-reached  reach    VERB   VBD  ROOT   1
-the      the      DET    DT   det    3
-island   island   NOUN   NN   dobj   1
-of       of       ADP    IN   prep   3
-Tarn     Tarn     PROPN  NNP  pobj   4
-.        .        PUNCT  .    punct  1
-""")
+REACHED = make_doc(REACHED_TARN)
 LAKE = make_doc("""
 We     we     PRON   PRP  nsubj  1
 saw    see    VERB   VBD  ROOT   1
