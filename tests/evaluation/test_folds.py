@@ -44,6 +44,18 @@ def test_grouped_kfold_is_deterministic_and_repeats_reshuffle_ties() -> None:
     assert len({tuple(tuple(test) for _, test in p.folds) for p in plans}) == 3
 
 
+def test_later_repeats_differ_even_when_every_doc_has_its_own_size() -> None:
+    docs = [f"d{i}" for i in range(10) for _ in range(i + 1)]  # sizes 1..10, no ties
+    plans = grouped_kfold(docs, 3, seed=5, repeats=4)
+    partitions = {tuple(sorted(tuple(test) for _, test in p.folds)) for p in plans}
+    assert len(partitions) >= 3
+    for plan in plans:
+        held = sorted(d for _, test in plan.folds for d in test)
+        assert held == sorted(set(docs))  # every doc held out exactly once per repeat
+        sizes = [sum(docs.count(d) for d in test) for _, test in plan.folds]
+        assert max(sizes) - min(sizes) <= 10  # still roughly balanced (55 records in 3 folds)
+
+
 def test_grouped_kfold_refusals_quote_the_numbers() -> None:
     with pytest.raises(ConfigError) as info:
         grouped_kfold(DOCS, 7, seed=13)

@@ -58,11 +58,14 @@ def grouped_kfold(docs: Sequence[str], n_splits: int, *, seed: int, repeats: int
     """``repeats`` plans of ``n_splits`` folds, balanced by record count, no doc split.
 
     ``docs`` holds the doc of every record (one entry per record), so a doc's
-    size is its number of records. Each repeat shuffles the docs with the seed,
-    sorts them by size (largest first; the shuffle orders docs of equal size)
-    and gives each to the fold with the fewest records so far (the first such
-    fold on ties), as scikit-learn's ``GroupKFold`` does without shuffling.
-    Repeats therefore differ only where docs tie in size.
+    size is its number of records. The first repeat shuffles the docs with the
+    seed, sorts them by size (largest first; the shuffle orders docs of equal
+    size) and gives each to the fold with the fewest records so far, as
+    scikit-learn's ``GroupKFold`` does without shuffling: the best-balanced
+    folds. Later repeats deal the docs in a fresh shuffled order, without the
+    size sort, to the fold with the fewest records so far: still roughly
+    balanced, and different from one repeat to the next, which is what
+    repeating is for.
     """
     if n_splits < 2:
         raise ConfigError(f"n_splits must be at least 2, got {n_splits}", "use 2 or more folds, or fixed_split")
@@ -79,7 +82,8 @@ def grouped_kfold(docs: Sequence[str], n_splits: int, *, seed: int, repeats: int
     plans = []
     for repeat in range(repeats):
         shuffled = [groups[i] for i in rng.permutation(len(groups))]
-        by_size = sorted(shuffled, key=lambda doc: -sizes[doc])  # stable: ties keep the shuffled order
+        # stable sort: ties keep the shuffled order; later repeats keep the shuffle itself
+        by_size = sorted(shuffled, key=lambda doc: -sizes[doc]) if repeat == 0 else shuffled
         load = [0] * n_splits
         tests: list[set[str]] = [set() for _ in range(n_splits)]
         for doc in by_size:
