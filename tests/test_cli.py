@@ -88,6 +88,12 @@ def test_fit_then_extract_on_a_small_corpus(tmp_path, demo_train):
     records = [json.loads(line) for line in out.read_text().splitlines()]
     assert [r["text"] for r in records] == ["We left Quillon at dawn.", "The road runs north."]
     assert table.read_text().splitlines()[0].startswith("id\tdoc\tstatus")
+    gold = demo_train / "quarne-salt-2.jsonl"
+    compared = runner.invoke(app, ["extract", str(model), str(gold), "-o", str(tmp_path / "q2.jsonl"), "--compare"])
+    assert compared.exit_code == 0, compared.output
+    assert "| mover |" in compared.output and "against" in compared.output
+    refused = runner.invoke(app, ["extract", str(model), str(text), "-o", str(tmp_path / "x.jsonl"), "--compare"])
+    assert refused.exit_code == 2 and "--compare needs JSONL input" in refused.output
 
 
 def test_extract_refuses_a_tampered_model(tmp_path):

@@ -141,8 +141,11 @@ def fit(
     output: Annotated[Path, typer.Option("--output", "-o", help="Model file to write (a pickle; see docs/models.md).")],
     config: ConfigOption = None,
     skip_bad: Annotated[bool, typer.Option(help="Leave out records with errors (each is listed) instead of refusing the corpus.")] = False,
+    jobs: Annotated[int, typer.Option("--jobs", "-j", help="Worker processes for a hyperparameter search's candidates.")] = 1,
 ) -> None:
     """Train an extractor on annotated records and write a model file with its digest."""
+    from joblib import parallel_config
+
     from trainer.config import load_config
     from trainer.corpus.reader import read_corpus, skipped_summary
     from trainer.models.training import fit_extractor, save_extractor
@@ -157,7 +160,8 @@ def fit(
             f"{', '.join(unreviewed[:10])}{' ...' if len(unreviewed) > 10 else ''}")
     say(f"training '{cfg.name}' on {len(annotated)} annotated record(s) from {len(data.docs)} doc(s)")
     started = time.perf_counter()
-    trained = fit_extractor(annotated, cfg)
+    with parallel_config(n_jobs=jobs):
+        trained = fit_extractor(annotated, cfg)
     meta = save_extractor(trained, output, records=annotated, training_seconds=time.perf_counter() - started)
     alignment = trained.alignment
     if alignment and (alignment.widened or alignment.dropped):
@@ -180,8 +184,10 @@ def extract(
     resume: Annotated[bool, typer.Option(help="Continue an interrupted run from what OUTPUT already holds.")] = False,
     skip_bad: Annotated[bool, typer.Option(help="JSONL input: leave out records with errors (listed).")] = False,
     progress: Annotated[Optional[bool], typer.Option(help="Show a progress bar (default: when stderr is a terminal).")] = None,
+    compare: Annotated[bool, typer.Option(help="JSONL input with events: score the predictions against them.")] = False,
 ) -> None:
     """Apply a model to a book or a JSONL file; offsets into a plain-text file are kept in each record's meta."""
+    from trainer.errors import ConfigError
     from trainer.models.apply import extract_file
     from trainer.models.training import load_extractor
 
@@ -194,6 +200,14 @@ def extract(
         say(f"skipped {problem}")
     resumed = f" (after {summary.resumed} kept from the earlier run)" if summary.resumed else ""
     say(f"{summary.sentences} sentence(s){resumed}, {summary.events} event(s), {summary.roles} role(s) written to {output}")
+    if compare:
+        from trainer.evaluation.summary import EvaluationSettings
+        from trainer.reports.markdown import score_markdown
+        from trainer.reports.runs import score_report
+
+        if fmt != "jsonl":
+            raise ConfigError("--compare needs JSONL input whose records carry events", "drop --compare for plain text")
+        typer.echo(score_markdown(score_report(source, output, roles=trained.roles, settings=EvaluationSettings())))
     if table:
         from trainer.corpus.convert import convert_file
 
@@ -503,7 +517,7 @@ def demo(
     say(f"report: {output / 'crossval' / 'report.html'} (also report.json, summary.md, predictions/)")
     say("\n== 3. training the default extractor on all training journals")
     model = output / "model.itin"
-    fit([data / "train"], output=model, config=configs / "default.toml", skip_bad=False)
+    fit([data / "train"], output=model, config=configs / "default.toml", skip_bad=False, jobs=1)
     say("\n== 4. extracting motion events from the unannotated chapter")
     chapter = data / "unannotated" / "delacott-survey-3.txt"
     extract(model, chapter, output=output / "chapter.jsonl", table=output / "chapter-events.tsv",

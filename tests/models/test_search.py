@@ -55,3 +55,20 @@ def test_search_grid_is_validated_in_the_config():
         config_from_dict({"role_model": {"search": {"gamma": [1]}}})
     with pytest.raises(ConfigError, match="'trigger_model.threshold' must lie in"):
         config_from_dict({"trigger_model": {"search": {"threshold": [0.5, 2.0]}}})
+
+
+@pytest.mark.slow
+def test_search_candidates_in_parallel_give_the_serial_result(nlp, demo_train):
+    from joblib import parallel_config
+
+    from trainer.corpus.reader import read_corpus
+    from trainer.models.training import fit_extractor
+
+    records = read_corpus([demo_train / f"{d}.jsonl" for d in ("amsel-pilgrim-1", "quarne-salt-1", "varrow-uplands-1")]).records
+    config = config_from_dict({"parser": {"use_cache": False}, "trigger_model": {"kind": "logistic", "search": {"C": [0.1, 1.0]}},
+                               "role_model": {"kind": "rules"}})
+    serial = fit_extractor(records, config, nlp=nlp).extractor.search_results_
+    with parallel_config(n_jobs=2):
+        parallel = fit_extractor(records, config, nlp=nlp).extractor.search_results_
+    assert serial == parallel
+    assert [r["params"] for r in serial["trigger_model"]] == [{"C": 0.1}, {"C": 1.0}]

@@ -1,7 +1,8 @@
 """Hyperparameter search for one stage, inside the training documents only.
 
 The grid comes from ``[trigger_model.search]`` / ``[role_model.search]`` in the
-config (e.g. ``c1 = [0.01, 0.1]``). Candidates are compared by exact-match F1
+config (e.g. ``c1 = [0.01, 0.1]``); candidates run in parallel under joblib's
+active settings. Candidates are compared by exact-match F1
 on inner folds grouped by document, made from the training records alone, so
 a cross-validation's held-out documents never influence the choice.
 """
@@ -11,6 +12,7 @@ from __future__ import annotations
 from dataclasses import replace
 from typing import Any, Callable, Sequence
 
+from joblib import Parallel, delayed
 from sklearn.model_selection import ParameterGrid
 from spacy.tokens import Doc
 
@@ -49,10 +51,13 @@ def search_stage(
     folds = inner_folds(records)
     if not config.search or len(folds) < 2:
         return config, []
+    grid = list(ParameterGrid(config.search))
+    # Candidates x inner folds run under the active joblib settings: serial by default, in parallel
+    # inside `joblib.parallel_config(n_jobs=N)` (as `itinerant fit --jobs N` sets it). Order is kept.
+    flat = Parallel()(delayed(evaluate)(replace(config, **params), train, test) for params in grid for train, test in folds)
     results = []
-    for params in ParameterGrid(config.search):
-        candidate = replace(config, **params)
-        scores = [evaluate(candidate, train, test) for train, test in folds]
+    for k, params in enumerate(grid):
+        scores = flat[k * len(folds) : (k + 1) * len(folds)]
         results.append({"params": params, "mean_f1": round(sum(scores) / len(scores), 6)})
     best = max(results, key=lambda r: r["mean_f1"])  # first of equals: grid order is deterministic
     return replace(config, **best["params"]), results
