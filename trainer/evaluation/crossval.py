@@ -117,7 +117,7 @@ def run_crossval(
     nlp = nlp or parser_for(configs[0])
     started = time.perf_counter()
     if docs is None:
-        docs, stats = parse_records(nlp, annotated, configs[0].parser)
+        docs, stats = parse_records(nlp, annotated, configs[0].parser, scheduler=scheduler)
         parsed, cached = stats.parsed, stats.cached
     else:
         parsed, cached = 0, len(docs)

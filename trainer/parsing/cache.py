@@ -16,7 +16,7 @@ import os
 import tempfile
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Sequence
+from typing import Callable, Sequence
 
 from spacy.language import Language
 from spacy.tokens import Doc, DocBin
@@ -130,8 +130,12 @@ def parse_with_cache(
     cache_dir: Path | str | None,
     batch_size: int = 64,
     workers: int = 1,
+    parser: Callable[[list[str]], list[Doc]] | None = None,
 ) -> tuple[list[Doc], ParseStats]:
-    """Parse texts, reading what the cache has and parsing (then storing) only the rest."""
+    """Parse texts, reading what the cache has and parsing (then storing) only the rest.
+
+    ``parser`` parses the missing texts instead of ``nlp.pipe`` here (e.g. on a cluster).
+    """
     stats = ParseStats()
     keys = [text_key(t) for t in texts]
     cache = ParseCache(cache_dir, nlp) if cache_dir else None
@@ -139,7 +143,8 @@ def parse_with_cache(
     missing = list(dict.fromkeys(k for k in keys if k not in known))
     if missing:
         text_of = dict(zip(keys, texts))
-        docs = parse_texts(nlp, [text_of[k] for k in missing], batch_size=batch_size, workers=workers)
+        todo = [text_of[k] for k in missing]
+        docs = parser(todo) if parser else parse_texts(nlp, todo, batch_size=batch_size, workers=workers)
         known.update(zip(missing, docs))
         if cache:
             cache.store(list(zip(missing, docs)))
