@@ -525,9 +525,5 @@ def demo(
     say(f"\nall results are in {output}/")
 
 
-def main() -> None:  # pragma: no cover - console entry point
+if __name__ == "__main__":
     app()
-
-
-if __name__ == "__main__":  # pragma: no cover
-    sys.exit(main())
