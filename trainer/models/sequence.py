@@ -73,6 +73,10 @@ class CRFTagger(BaseEstimator):
         """The most likely BIO sequence per sentence."""
         return [list(tags) for tags in self._fitted().predict(list(X))] if len(X) else []
 
+    def token_distributions(self, X: Sequence[Sentence]) -> list[list[dict[str, float]]]:
+        """Per sentence, per token: the marginal probability of every tag."""
+        return self._fitted().predict_marginals(list(X)) if len(X) else []
+
     def predict_spans(self, X: Sequence[Sentence]) -> list[list[SpanGuess]]:
         """Spans per sentence with the mean marginal probability of their tags, above the threshold.
 
@@ -114,7 +118,8 @@ class LogisticTagger(BaseEstimator):
         self.labels_ = list(self.model_.classes_)
         return self
 
-    def _token_probabilities(self, X: Sequence[Sentence]) -> list[list[dict[str, float]]]:
+    def token_distributions(self, X: Sequence[Sentence]) -> list[list[dict[str, float]]]:
+        """Per sentence, per token: the probability of every tag."""
         if not hasattr(self, "model_"):
             raise NotFittedError("this LogisticTagger is not fitted yet", "call fit before predict")
         flat = [f for sentence in X for f in sentence]
@@ -130,11 +135,11 @@ class LogisticTagger(BaseEstimator):
 
     def predict(self, X: Sequence[Sentence]) -> list[list[str]]:
         """The most probable tag per token, with I- after O repaired to B-."""
-        return [_repair([max(p, key=p.get) for p in sentence]) for sentence in self._token_probabilities(X)]
+        return [_repair([max(p, key=p.get) for p in sentence]) for sentence in self.token_distributions(X)]
 
     def predict_spans(self, X: Sequence[Sentence]) -> list[list[SpanGuess]]:
         out = []
-        for probs in self._token_probabilities(X):
+        for probs in self.token_distributions(X):
             tags = _repair([max(p, key=p.get) for p in probs])
             out.append([s for s in _spans_with_probabilities(tags, probs) if s[3] >= self.threshold])
         return out

@@ -61,8 +61,9 @@ class SequenceRoleLabeller:
         self.tagger = tagger
         self.featurizer = featurizer
 
-    def _sequences(self, docs: Sequence[Doc], triggers: Sequence[Sequence[TokenRange]],
+    def sequences(self, docs: Sequence[Doc], triggers: Sequence[Sequence[TokenRange]],
                    features: Sequence[list[dict]] | None = None) -> list[list[dict]]:
+        """The role-labelling input: one feature sequence per trigger, sentences in order."""
         out = []
         for k, (doc, sentence_triggers) in enumerate(zip(docs, triggers)):
             if not sentence_triggers:
@@ -72,14 +73,14 @@ class SequenceRoleLabeller:
         return out
 
     def fit(self, docs, triggers, roles, features=None) -> "SequenceRoleLabeller":
-        X = self._sequences(docs, triggers, features)
+        X = self.sequences(docs, triggers, features)
         y = [bio_tags(doc, [((f, e), r) for f, e, r in event_roles])
              for doc, doc_roles in zip(docs, roles) for event_roles in doc_roles]
         self.tagger.fit(X, y)
         return self
 
     def predict(self, docs, triggers, features=None) -> list[list[list[tuple[int, int, str, float]]]]:
-        flat = iter(self.tagger.predict_spans(self._sequences(docs, triggers, features)) if any(triggers) else [])
+        flat = iter(self.tagger.predict_spans(self.sequences(docs, triggers, features)) if any(triggers) else [])
         return [[next(flat) for _ in sentence_triggers] for sentence_triggers in triggers]
 
 
@@ -118,7 +119,8 @@ class CandidateRoleLinker(BaseEstimator):
             rows.append(row)
         return spans, rows
 
-    def _all_pairs(self, docs, triggers, features=None):
+    def candidate_pairs(self, docs, triggers, features=None):
+        """Per trigger, in order: the candidate spans and their feature rows."""
         for k, (doc, sentence_triggers) in enumerate(zip(docs, triggers)):
             if not sentence_triggers:
                 continue
@@ -129,7 +131,7 @@ class CandidateRoleLinker(BaseEstimator):
     def fit(self, docs, triggers, roles, features=None) -> "CandidateRoleLinker":
         rows, labels, self.unreachable_ = [], [], 0
         gold_iter = (event_roles for doc_roles in roles for event_roles in doc_roles)
-        for (spans, pair_rows), event_roles in zip(self._all_pairs(docs, triggers, features), gold_iter):
+        for (spans, pair_rows), event_roles in zip(self.candidate_pairs(docs, triggers, features), gold_iter):
             gold = {(f, e): r for f, e, r in reversed(event_roles)}
             self.unreachable_ += len(set(gold) - set(spans))
             rows.extend(pair_rows)
@@ -145,7 +147,7 @@ class CandidateRoleLinker(BaseEstimator):
     def predict(self, docs, triggers, features=None) -> list[list[list[tuple[int, int, str, float]]]]:
         classes = list(self.model_.classes_)
         flat = []
-        for spans, rows in self._all_pairs(docs, triggers, features):
+        for spans, rows in self.candidate_pairs(docs, triggers, features):
             chosen = []
             if rows:
                 for span, probs in zip(spans, self.model_.predict_proba(self.vectorizer_.transform(rows))):

@@ -114,31 +114,16 @@ class RecordUncertainty:
 # ---------------------------------------------------------------- distributions, per kind of estimator
 
 
-def _crf_decisions(tagger: CRFTagger, X: list[list[dict]]) -> list[Decisions]:
-    crf = tagger._fitted()
-    labels = sorted(crf.classes_)
-    marginals = crf.predict_marginals(X) if X else []
-    return [np.array([[m.get(label, 0.0) for label in labels] for m in sentence], dtype=float).reshape(len(sentence), len(labels))
-            for sentence in marginals]
-
-
-def _logistic_decisions(tagger: LogisticTagger, X: list[list[dict]]) -> list[Decisions]:
-    # The tagger's own probability path, so the distributions are those its predictions come from.
-    labels = tagger.labels_
-    return [np.array([[p[label] for label in labels] for p in sentence], dtype=float).reshape(len(sentence), len(labels))
-            for sentence in tagger._token_probabilities(X)]
-
-
-TAGGER_DECISIONS: dict[type, Callable[..., list[Decisions]]] = {
-    CRFTagger: _crf_decisions,
-    LogisticTagger: _logistic_decisions,
-}
+def _tagger_distributions(tagger: CRFTagger | LogisticTagger, X: list[list[dict]]) -> list[Decisions]:
+    """The tagger's own per-token tag distributions (CRF marginals, logistic probabilities) as arrays."""
+    labels = sorted(tagger.labels_)
+    return [np.array([[p.get(label, 0.0) for label in labels] for p in sentence], dtype=float).reshape(len(sentence), len(labels))
+            for sentence in tagger.token_distributions(X)]
 
 
 def _tagger_decisions(tagger: object, X: list[list[dict]], stage: str) -> list[Decisions]:
-    for kind, decisions in TAGGER_DECISIONS.items():
-        if isinstance(tagger, kind):
-            return decisions(tagger, X)
+    if isinstance(tagger, (CRFTagger, LogisticTagger)):
+        return _tagger_distributions(tagger, X)
     raise NoUncertaintyError(f"the {stage} stage uses a {type(tagger).__name__}, which gives no token probabilities",
                              "use a crf or logistic model for this stage")
 
@@ -161,13 +146,13 @@ def _role_decisions(trained: TrainedExtractor, docs: Sequence[Doc],
     labeller = trained.extractor.role_labeller
     if isinstance(labeller, SequenceRoleLabeller):
         # One role sequence per trigger, built by the labeller's own feature path.
-        flat = iter(_tagger_decisions(labeller.tagger, labeller._sequences(docs, triggers), "role")
+        flat = iter(_tagger_decisions(labeller.tagger, labeller.sequences(docs, triggers), "role")
                     if any(triggers) else [])
         per_trigger = [[next(flat) for _ in sentence] for sentence in triggers]
         n_labels = len(labeller.tagger.labels_)
     elif isinstance(labeller, CandidateRoleLinker):
         n_labels = len(labeller.model_.classes_)
-        pairs = iter(labeller._all_pairs(docs, triggers))
+        pairs = iter(labeller.candidate_pairs(docs, triggers))
         per_trigger = []
         for sentence in triggers:
             rows = []
