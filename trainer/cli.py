@@ -158,7 +158,7 @@ def fit(
     if unreviewed:
         say(f"left out {len(unreviewed)} pre-annotated record(s) nobody has reviewed (provenance 'predicted'): "
             f"{', '.join(unreviewed[:10])}{' ...' if len(unreviewed) > 10 else ''}")
-    say(f"training '{cfg.name}' on {len(annotated)} annotated record(s) from {len(data.docs)} doc(s)")
+    say(f"training '{cfg.name}' on {len(annotated)} annotated record(s) from {len({r.doc for r in annotated})} doc(s)")
     started = time.perf_counter()
     with parallel_config(n_jobs=jobs):
         trained = fit_extractor(annotated, cfg)
