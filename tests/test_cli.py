@@ -153,6 +153,13 @@ def test_crossval_fixed_split_from_test_files(tmp_path, demo_train, demo_test):
     assert folds[0]["kind"] == "fixed_split"
     assert folds[0]["folds"][0]["train_docs"] == ["quarne-salt-1"]
     assert folds[0]["folds"][0]["test_docs"] == ["lisle-letters-1", "ruddock-drove-1"]
+    # Only held-out records are scored: the gold counted is the test journals' own role instances.
+    from trainer.corpus.reader import read_corpus
+
+    test_roles = sum(len(e.roles) for r in read_corpus([demo_test]).records for e in r.events)
+    scores = json.loads((out / "report.json").read_text())["systems"][0]["scores"]
+    assert scores["micro"]["gold"] == test_roles
+    assert scores["records"] == 106
     clash = runner.invoke(app, ["crossval", str(demo_test), "--test", str(demo_test / "lisle-letters-1.jsonl"),
                                 "-c", str(rules), "-o", str(out)])
     assert clash.exit_code == 1 and "both in the corpus and in the test files" in clash.output

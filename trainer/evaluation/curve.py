@@ -14,7 +14,7 @@ from trainer.corpus.records import Record
 from trainer.errors import ConfigError
 from trainer.evaluation.crossval import Progress, run_crossval
 from trainer.evaluation.folds import FoldPlan
-from trainer.evaluation.summary import EvaluationSettings, pooled_counts
+from trainer.evaluation.summary import EvaluationSettings, fold_counts, pool_folds
 
 DEFAULT_SHARES = (0.25, 0.5, 0.75, 1.0)
 
@@ -51,9 +51,8 @@ def learning_curve(
         run = run_crossval(annotated, configs, shrunk, docs=docs, jobs=jobs, scheduler=scheduler, progress=progress)
         docs = run.docs
         for system in run.systems:
-            repeats = sorted({f.repeat for f in system.folds})
-            scores = pooled_counts(run.records, [system.predictions(r) for r in repeats],
-                                   roles=system.config.roles, mode=settings.mode).scores()
+            parts = fold_counts(run, system, roles=system.config.roles, mode=settings.mode)
+            scores = pool_folds(system, parts).scores()
             curve["systems"][system.name].append({
                 "share": share,
                 "train_records": round(float(np.mean([f.train_records for f in system.folds])), 1),

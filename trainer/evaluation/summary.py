@@ -11,11 +11,10 @@ from itertools import combinations
 from statistics import mean, pstdev
 from typing import Any, Sequence
 
-from trainer.corpus.records import Record
 from trainer.evaluation.bootstrap import bootstrap_f1s
 from trainer.evaluation.crossval import CrossvalRun, SystemRun
 from trainer.evaluation.error_analysis import ErrorAnalysis, error_analysis
-from trainer.evaluation.scoring import CorpusCounts, Scores, count_corpus
+from trainer.evaluation.scoring import CorpusCounts, Scores, count_corpus, merge_counts
 from trainer.evaluation.significance import compare_f1s
 
 
@@ -64,28 +63,35 @@ class RunSummary:
     comparisons: list[Comparison]
 
 
-def pooled_counts(gold: Sequence[Record], per_repeat: Sequence[Sequence[Record]], *, roles: Sequence[str],
-                  mode: str) -> CorpusCounts:
-    """Counts of every repeat's held-out predictions pooled; each record counts once per repeat."""
-    if len(per_repeat) == 1:
-        return count_corpus(gold, per_repeat[0], roles=roles, mode=mode)
-    by_record, doc_of, unannotated = {}, {}, []
-    for repeat, predicted in enumerate(per_repeat):
-        counts = count_corpus(gold, predicted, roles=roles, mode=mode)
-        for record_id, record_counts in counts.by_record.items():
-            by_record[f"{record_id}#{repeat}"] = record_counts
-            doc_of[f"{record_id}#{repeat}"] = counts.doc_of[record_id]
-        unannotated = counts.unannotated
-    return CorpusCounts(mode, tuple(roles), by_record, doc_of, unannotated)
-
-
-def fold_spread(run: CrossvalRun, system: SystemRun, *, roles: Sequence[str], mode: str) -> dict[str, dict[str, Any]]:
-    """Each F1 on every fold separately, with its mean and (population) standard deviation."""
+def fold_counts(run: CrossvalRun, system: SystemRun, *, roles: Sequence[str], mode: str,
+                gold_triggers: bool = False) -> list[CorpusCounts]:
+    """Counts of each fold's held-out predictions against the gold of those records only."""
     gold_by_id = {r.id: r for r in run.records}
-    per_fold: list[dict[str, float]] = []
+    out = []
     for fold in system.folds:
-        gold = [gold_by_id[r.id] for r in fold.predicted]
-        per_fold.append(count_corpus(gold, fold.predicted, roles=roles, mode=mode).scores().f1s())
+        predicted = fold.predicted_gold_triggers if gold_triggers else fold.predicted
+        out.append(count_corpus([gold_by_id[r.id] for r in predicted], predicted, roles=roles, mode=mode))
+    return out
+
+
+def pool_folds(system: SystemRun, parts: Sequence[CorpusCounts]) -> CorpusCounts:
+    """The folds' counts pooled; with repeats each record counts once per repeat (keyed ``id#repeat``)."""
+    repeats = sorted({f.repeat for f in system.folds})
+    per_repeat = [merge_counts(part for fold, part in zip(system.folds, parts) if fold.repeat == r) for r in repeats]
+    if len(per_repeat) == 1:
+        return per_repeat[0]
+    first = per_repeat[0]
+    pooled = CorpusCounts(first.mode, first.roles, {}, {}, list(first.unannotated))
+    for repeat, counts in zip(repeats, per_repeat):
+        for record_id, record_counts in counts.by_record.items():
+            pooled.by_record[f"{record_id}#{repeat}"] = record_counts
+            pooled.doc_of[f"{record_id}#{repeat}"] = counts.doc_of[record_id]
+    return pooled
+
+
+def fold_spread(parts: Sequence[CorpusCounts]) -> dict[str, dict[str, Any]]:
+    """Each F1 on every fold separately, with its mean and (population) standard deviation."""
+    per_fold = [part.scores().f1s() for part in parts]
     names = list(per_fold[0]) if per_fold else []
     return {name: {"mean": round(mean(f[name] for f in per_fold), 6),
                    "std": round(pstdev(f[name] for f in per_fold), 6),
@@ -93,20 +99,22 @@ def fold_spread(run: CrossvalRun, system: SystemRun, *, roles: Sequence[str], mo
 
 
 def summarise_system(run: CrossvalRun, system: SystemRun, settings: EvaluationSettings) -> SystemSummary:
+    """Pooled scores, intervals, fold spread and errors of one config; only held-out records are scored."""
     roles = system.config.roles
-    repeats = sorted({f.repeat for f in system.folds})
-    counts = pooled_counts(run.records, [system.predictions(r) for r in repeats], roles=roles, mode=settings.mode)
-    given = pooled_counts(run.records, [system.predictions(r, gold_triggers=True) for r in repeats],
-                          roles=roles, mode=settings.mode)
+    parts = fold_counts(run, system, roles=roles, mode=settings.mode)
+    counts = pool_folds(system, parts)
+    given = pool_folds(system, fold_counts(run, system, roles=roles, mode=settings.mode, gold_triggers=True))
     intervals = bootstrap_f1s(counts.units(by=settings.bootstrap_unit), roles, samples=settings.bootstrap_samples,
                               seed=settings.seed, confidence=settings.confidence)
+    first_repeat = system.predictions(min(f.repeat for f in system.folds))
+    gold_by_id = {r.id: r for r in run.records}
     return SystemSummary(
         name=system.name,
         scores=counts.scores(),
         gold_trigger_scores=given.scores(),
         intervals=intervals,
-        fold_f1=fold_spread(run, system, roles=roles, mode=settings.mode),
-        errors=error_analysis(run.records, system.predictions(repeats[0]), roles=roles),
+        fold_f1=fold_spread(parts),
+        errors=error_analysis([gold_by_id[r.id] for r in first_repeat], first_repeat, roles=roles),
         counts=counts,
         timings={"train_seconds": round(sum(f.train_seconds for f in system.folds), 2),
                  "predict_seconds": round(sum(f.predict_seconds for f in system.folds), 2)},
