@@ -96,6 +96,14 @@ def resume_point(target: Path, *, plain_text: bool) -> ResumePoint:
     return point
 
 
+def _input_size(source: Path, *, plain_text: bool) -> int:
+    """What progress is measured against: bytes of a text file, lines of a JSONL file (one extra read)."""
+    if plain_text:
+        return os.path.getsize(source)
+    with open(source, "rb") as handle:
+        return sum(1 for _ in handle)
+
+
 def _batches(items: Iterable, size: int) -> Iterator[list]:
     iterator = iter(items)
     while batch := list(islice(iterator, size)):
@@ -145,7 +153,7 @@ def extract_file(
     point = resume_point(target, plain_text=plain_text) if resume else ResumePoint()
     summary.resumed = point.records
     read = [0]
-    total = os.path.getsize(source) if plain_text else sum(1 for _ in open(source, "rb"))
+    total = _input_size(source, plain_text=plain_text) if on_progress else 0
     pairs = (_text_pairs(nlp, source, doc_name or source.stem, point, read) if plain_text
              else _jsonl_pairs(trained, source, point, summary.skipped, read, skip_bad))
     target.parent.mkdir(parents=True, exist_ok=True)
