@@ -47,8 +47,8 @@ def study_config(cache_dir: Path | str, *, max_iterations: int = 50) -> Experime
     return config_from_dict({
         "name": f"study-crf-{max_iterations}",
         "parser": {"cache_dir": str(cache_dir)},
-        "trigger_model": {"kind": "crf", "max_iterations": max_iterations},
-        "role_model": {"kind": "crf", "max_iterations": max_iterations},
+        "trigger_model": {"kind": "crf", "iterations": max_iterations},
+        "role_model": {"kind": "crf", "iterations": max_iterations},
     })
 
 

@@ -3,7 +3,8 @@
 The demo journals are written by hand in inline markup (``source/*.txt``, see
 ``trainer/corpus/convert/inline.py``); this script turns each into
 ``train/<doc>.jsonl`` or ``test/<doc>.jsonl`` according to its ``# split:``
-header. Run it after editing a source file:
+header, and concatenates the training journals into ``trainer/data/demo-train.jsonl``
+(the packaged auxiliary corpus ``packaged:demo``). Run it after editing a source file:
 
     python demo_annotations/build_demo.py            # write and summarise
     python demo_annotations/build_demo.py --check    # fail if outputs are stale
@@ -19,6 +20,8 @@ from trainer.corpus.convert.inline import read_inline
 from trainer.corpus.jsonl import dumps_record, write_jsonl
 
 HERE = Path(__file__).resolve().parent
+# The training journals also ship inside the package as the auxiliary corpus ``packaged:demo``.
+PACKAGED = HERE.parent / "trainer" / "data" / "demo-train.jsonl"
 
 
 def split_of(source: Path) -> str:
@@ -48,6 +51,12 @@ def main(argv: list[str]) -> int:
         triggers.update(r.span_text(e.trigger).lower() for r in records for e in r.events)
         totals.update(records=len(records), negatives=negatives, events=len(events), **roles)
         print(f"{source.stem:22} records={len(records):4} negatives={negatives:4} events={len(events):4} {dict(roles)}")
+    packaged = "".join(p.read_text(encoding="utf-8") for p in sorted((HERE / "train").glob("*.jsonl")))
+    if check_only:
+        if not PACKAGED.exists() or PACKAGED.read_text(encoding="utf-8") != packaged:
+            stale.append(str(PACKAGED))
+    else:
+        PACKAGED.write_text(packaged, encoding="utf-8")
     print(f"TOTAL {dict(totals)}; negative share {totals['negatives'] / max(totals['records'], 1):.2f}; "
           f"distinct trigger forms {len(triggers)}")
     if stale:

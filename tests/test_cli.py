@@ -52,16 +52,34 @@ def test_check_strict_turns_warnings_into_exit_1(tmp_path):
 def test_convert_round_trip_through_columns(tmp_path):
     source = write(tmp_path / "a.jsonl", GOOD)
     columns = tmp_path / "a.cols"
-    assert runner.invoke(app, ["convert", str(source), "-o", str(columns), "--from", "jsonl", "--to", "columns"]).exit_code == 0
-    back = tmp_path / "back.jsonl"
-    assert runner.invoke(app, ["convert", str(columns), "-o", str(back), "--from", "columns", "--to", "jsonl"]).exit_code == 0
+    assert runner.invoke(app, ["convert", str(source), "-o", str(columns)]).exit_code == 0  # formats from the extensions
+    back = tmp_path / "back.txt"
+    assert runner.invoke(app, ["convert", str(columns), "-o", str(back), "--input-format", "columns",
+                               "--output-format", "jsonl"]).exit_code == 0
     assert json.loads(back.read_text()) == GOOD
 
 
 def test_convert_unknown_format_is_a_clear_error(tmp_path):
-    result = runner.invoke(app, ["convert", str(write(tmp_path / "a.jsonl", GOOD)), "-o", str(tmp_path / "x"), "--to", "brat"])
+    result = runner.invoke(app, ["convert", str(write(tmp_path / "a.jsonl", GOOD)), "-o", str(tmp_path / "x"), "--output-format", "brat"])
     assert result.exit_code == 2
-    assert "unknown output format 'brat'" in result.output
+    assert "'brat' is not an output format" in result.output
+    assert "--output-format takes one of: jsonl, columns, table" in result.output
+    result = runner.invoke(app, ["convert", str(tmp_path / "a.jsonl"), "-o", str(tmp_path / "x.docx")])
+    assert result.exit_code == 2
+    assert "cannot tell the output format from the extension '.docx'" in result.output
+    assert not (tmp_path / "x.docx").exists()
+
+
+def test_convert_infers_a_table_from_tsv_and_exits_0_with_listed_losses(tmp_path):
+    scored = {**GOOD, "events": [{**GOOD["events"][0], "confidence": 0.9}]}
+    source = write(tmp_path / "a.jsonl", scored)
+    result = runner.invoke(app, ["convert", str(source), "-o", str(tmp_path / "a.tsv")])
+    assert result.exit_code == 0, result.output
+    assert "not carried over: a: confidence scores cannot be written in this format; left out" in result.output
+    assert (tmp_path / "a.tsv").read_text(encoding="utf-8").startswith("id\t")  # a table, not JSONL
+    failing = runner.invoke(app, ["convert", str(source), "-o", str(tmp_path / "b.tsv"), "--fail-on-loss"])
+    assert failing.exit_code == 1
+    assert (tmp_path / "b.tsv").exists()
 
 
 def test_fit_refuses_a_corpus_with_errors_unless_skipping(tmp_path):
@@ -74,7 +92,7 @@ def test_fit_refuses_a_corpus_with_errors_unless_skipping(tmp_path):
 @pytest.mark.slow
 def test_fit_then_extract_on_a_small_corpus(tmp_path, demo_train):
     config = tmp_path / "quick.toml"
-    config.write_text(f'[parser]\ncache_dir = "{tmp_path / "cache"}"\n[trigger_model]\nmax_iterations = 20\n'
+    config.write_text(f'[parser]\ncache_dir = "{tmp_path / "cache"}"\n[trigger_model]\niterations = 20\n'
                       '[role_model]\nkind = "logistic"\n', encoding="utf-8")
     model = tmp_path / "m.itin"
     fitted = runner.invoke(app, ["fit", str(demo_train / "quarne-salt-1.jsonl"), "-c", str(config), "-o", str(model)])
@@ -102,6 +120,7 @@ def test_extract_refuses_a_tampered_model(tmp_path):
     model = tmp_path / "m.itin"
     save_model({"not": "an extractor"}, model, {"kind": "x"})
     model.write_bytes(model.read_bytes() + b"x")
+    (tmp_path / "in.txt").write_text("We left Caddow.\n", encoding="utf-8")
     result = runner.invoke(app, ["extract", str(model), str(tmp_path / "in.txt"), "-o", str(tmp_path / "o.jsonl")])
     assert result.exit_code == 2
     assert "SHA-256 digest mismatch" in result.output
@@ -111,7 +130,7 @@ def test_extract_refuses_a_tampered_model(tmp_path):
 def test_crossval_with_two_configs_writes_the_three_report_forms(tmp_path, demo_train):
     quick = tmp_path / "quick.toml"
     quick.write_text(f'name = "quick-crf"\n[parser]\ncache_dir = "{tmp_path / "cache"}"\n'
-                     '[trigger_model]\nmax_iterations = 25\n[role_model]\nmax_iterations = 25\n', encoding="utf-8")
+                     '[trigger_model]\niterations = 25\n[role_model]\niterations = 25\n', encoding="utf-8")
     rules = tmp_path / "rules.toml"
     rules.write_text(f'[parser]\ncache_dir = "{tmp_path / "cache"}"\n[trigger_model]\nkind = "rules"\n'
                      '[role_model]\nkind = "rules"\n', encoding="utf-8")
@@ -163,3 +182,41 @@ def test_crossval_fixed_split_from_test_files(tmp_path, demo_train, demo_test):
     clash = runner.invoke(app, ["crossval", str(demo_test), "--test", str(demo_test / "lisle-letters-1.jsonl"),
                                 "-c", str(rules), "-o", str(out)])
     assert clash.exit_code == 1 and "both in the corpus and in the test files" in clash.output
+
+
+def test_agree_prints_the_tables_and_writes_the_views(tmp_path):
+    other = {**GOOD, "events": [{"trigger": [3, 7], "roles": [{"role": "mover", "span": [0, 2]}, {"role": "source", "span": [8, 14]}]}]}
+    first, second = write(tmp_path / "ann.jsonl", GOOD), write(tmp_path / "bea.jsonl", other)
+    result = runner.invoke(app, ["agree", str(first), str(second), "-o", str(tmp_path / "agreement")])
+    assert result.exit_code == 0, result.output
+    assert "Agreement of ann.jsonl, bea.jsonl on 1 record(s) annotated by all (4 tokens)" in result.output
+    assert "| source | 0.000 | 0.000 | 0 | 0 | 1 |" in result.output
+    assert "- a: ann.jsonl: (nothing); bea.jsonl: source 'Caddow' [8, 14] of 'left'" in result.output
+    assert sorted(p.name for p in (tmp_path / "agreement").iterdir()) == ["agreement.html", "agreement.json", "disagreements.tsv"]
+
+
+def test_agree_refuses_one_file_and_different_texts_without_traceback(tmp_path):
+    first = write(tmp_path / "ann.jsonl", GOOD)
+    alone = runner.invoke(app, ["agree", str(first)])
+    assert alone.exit_code == 2 and "agreement needs at least two annotation files, got 1" in alone.output
+    second = write(tmp_path / "bea.jsonl", {**GOOD, "text": "We left Caddow!"})
+    differ = runner.invoke(app, ["agree", str(first), str(second)])
+    assert differ.exit_code == 1 and "1 record(s) have a different text from one annotator to another: a" in differ.output
+    assert "Traceback" not in alone.output + differ.output
+
+
+def test_review_refuses_a_file_with_errors_before_serving(tmp_path):
+    path = write(tmp_path / "bad.jsonl", {**GOOD, "events": [{"trigger": [3, 99]}]})
+    result = runner.invoke(app, ["review", str(path), "--no-open", "--port", "0"])
+    assert result.exit_code == 1
+    assert "cannot be reviewed safely" in result.output and f"itinerant check {path}" in result.output
+    assert "Traceback" not in result.output
+
+
+def test_convert_of_a_bad_jsonl_file_names_no_option_convert_lacks(tmp_path):
+    source = write(tmp_path / "a.jsonl", GOOD, {**GOOD, "id": "b", "doc": 3})
+    result = runner.invoke(app, ["convert", str(source), "-o", str(tmp_path / "a.tsv")])
+    assert result.exit_code == 1
+    assert f"{source}:2: doc: must be a string, got int" in result.output
+    assert "--skip-bad" not in result.output and "itinerant check" in result.output
+    assert not (tmp_path / "a.tsv").exists()

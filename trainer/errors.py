@@ -54,3 +54,15 @@ class NotFittedError(ItinerantError):
     """A model was asked to predict before it was fitted."""
 
     exit_code = 2
+
+
+class OutputError(ItinerantError):
+    """An output that would replace an input, is the wrong kind of path, cannot be written, or is being written."""
+
+    exit_code = 2
+
+
+class StaleCopyError(ItinerantError):
+    """A change was made on an older copy of a file than the one on disk (two tabs, or an edit elsewhere)."""
+
+    exit_code = 1

@@ -106,8 +106,8 @@ def setting(nlp, demo_train, demo_test, tmp_path_factory):
     config = config_from_dict({
         "name": "small-crf",
         "parser": {"cache_dir": str(tmp_path_factory.getbasetemp() / "uncertainty-cache")},
-        "trigger_model": {"kind": "crf", "max_iterations": 50},
-        "role_model": {"kind": "crf", "max_iterations": 50},
+        "trigger_model": {"kind": "crf", "iterations": 50},
+        "role_model": {"kind": "crf", "iterations": 50},
     })
     training = read_corpus([demo_train / f"{name}.jsonl" for name in ("amsel-pilgrim-1", "brannick-log-1", "fairbeck-diary-1")]).records
     model = fit_extractor(training, config, nlp=nlp)

@@ -213,7 +213,8 @@ def test_convert_file_jsonl_to_columns_and_back(tmp_path: Path) -> None:
 def test_unknown_format_names_the_allowed_ones(tmp_path: Path) -> None:
     with pytest.raises(UnknownFormatError) as caught:
         convert_file(tmp_path / "a.jsonl", tmp_path / "b.xml", from_format="jsonl", to_format="isospace")
-    assert str(caught.value) == "unknown output format 'isospace'\n  fix: use one of: jsonl, columns, table"
+    assert str(caught.value) == (f"{tmp_path / 'b.xml'}: 'isospace' is not an output format\n"
+                                 "  fix: --output-format takes one of: jsonl, columns, table")
     assert set(WRITERS) == {"jsonl", "columns", "table"}
 
 
@@ -243,3 +244,20 @@ def test_convert_file_from_inline_markup(tmp_path: Path) -> None:
     assert result.losses == []
     assert_same(result.records, sample_records()[:1])
     assert_same(read_columns(tmp_path / "demo.conll").records, sample_records()[:1])
+
+
+def test_duplicate_ids_are_refused_with_both_lines(tmp_path: Path) -> None:
+    path = tmp_path / "dup.cols"
+    write_columns([parse_inline("[We|mover1] [left|T1].", record_id="a", doc="d")], path)
+    block = path.read_text(encoding="utf-8")
+    path.write_text(block + "\n" + block, encoding="utf-8")
+    with pytest.raises(CorpusError, match=r"dup.cols:8: duplicate id 'a' \(first at line 1\)"):
+        read_columns(path)
+
+
+def test_an_empty_doc_is_refused_with_its_line(tmp_path: Path) -> None:
+    path = tmp_path / "nodoc.cols"
+    write_columns([parse_inline("[We|mover1] [left|T1].", record_id="a", doc="d")], path)
+    path.write_text(path.read_text(encoding="utf-8").replace("# doc = d", "# doc = "), encoding="utf-8")
+    with pytest.raises(CorpusError, match=r"nodoc.cols:1: record 'a': doc: is empty"):
+        read_columns(path)

@@ -187,3 +187,10 @@ def test_sentence_splitter() -> None:
         "Day two\nwe rowed on?",
         "Yes",
     ]
+
+
+def test_an_unknown_encoding_in_the_declaration_is_a_located_error(tmp_path: Path) -> None:
+    # found by tests/corpus/test_reader_properties.py: ElementTree raised LookupError for encoding="TF-8"
+    path = write(tmp_path, "blog.xml", BLOG.replace('encoding="UTF-8"', 'encoding="TF-8"'))
+    with pytest.raises(UnreadableInputError, match=r"blog.xml: the XML declaration names an unknown encoding"):
+        read_isospace(path)

@@ -160,7 +160,8 @@ def test_unknown_input_format_names_the_allowed_ones(tmp_path: Path) -> None:
     with pytest.raises(UnknownFormatError) as caught:
         convert_file(tmp_path / "a.xlsx", tmp_path / "b.jsonl", from_format="excel", to_format="jsonl")
     assert str(caught.value) == (
-        "unknown input format 'excel'\n  fix: use one of: jsonl, columns, table, isospace, inline"
+        f"{tmp_path / 'a.xlsx'}: 'excel' is not an input format\n"
+        "  fix: --input-format takes one of: jsonl, columns, table, isospace, inline"
     )
 
 
@@ -174,3 +175,30 @@ def test_demo_corpus_round_trips_through_the_table(tmp_path: Path) -> None:
         back = read_table(tmp_path / f"{source.stem}.tsv")
         assert there.losses == back.losses == [], source
         assert_same(back.records, original)
+
+
+def _edited_table(tmp_path: Path, edit) -> Path:
+    path = tmp_path / "t.tsv"
+    write_table([inline("[We|mover1] [left|T1] [Caddow|source1].", "a1")], path)
+    lines = path.read_bytes().decode("utf-8").split("\r\n")
+    rows = [cells.split("\t") for cells in lines if cells]
+    edit({name: i for i, name in enumerate(rows[0])}, rows)
+    path.write_text("\r\n".join("\t".join(r) for r in rows) + "\r\n", encoding="utf-8")
+    return path
+
+
+@pytest.mark.parametrize("edit, message", [
+    (lambda c, rows: rows[1].__setitem__(c["role"], ""),
+     "row 2: column role is empty but column(s) start, end, span_text hold a span; name the role or clear those cells"),
+    (lambda c, rows: rows[2].__setitem__(c["event"], ""),
+     "row 3: column event is empty but column(s) trigger_start, trigger_end, trigger_text, role, start, end, span_text are filled"),
+    (lambda c, rows: [r.__setitem__(c["doc"], "") for r in rows[1:]], "row 2: doc: is empty"),
+    (lambda c, rows: rows[1].__setitem__(c["start"], "²"), "row 2: start/end '²'/'2' are not whole numbers"),
+    (lambda c, rows: rows[1].__setitem__(c["meta"], '{"a": 1, "a": 2}'), "row 2: meta is not clean JSON"),
+    (lambda c, rows: rows.append(["a2", "d", "unannotated", "", "", "", "", "", "0", "2", "We", "We left.", ""]),
+     "row 4: status 'unannotated' but column(s) start, end, span_text hold an event"),
+])
+def test_edited_cells_are_errors_with_row_and_column_never_silent_drops(tmp_path: Path, edit, message) -> None:
+    with pytest.raises(CorpusError) as caught:
+        read_table(_edited_table(tmp_path, edit))
+    assert message in str(caught.value)

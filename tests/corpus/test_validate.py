@@ -7,7 +7,7 @@ import json
 import pytest
 
 from trainer.corpus.reader import read_corpus, skipped_summary
-from trainer.corpus.validate import check_files
+from trainer.corpus.validate import check_files, check_line
 from trainer.errors import CorpusError, UnreadableInputError
 
 GOOD = {"id": "ok-1", "doc": "d", "text": "We left Caddow.", "events": [{"trigger": [3, 7], "roles": [{"role": "mover", "span": [0, 2]}]}]}
@@ -105,3 +105,39 @@ def test_role_inventory_is_configurable(tmp_path):
     path.write_text(line(events=ev([3, 7], ("vehicle", [0, 2]))) + "\n", encoding="utf-8")
     assert check_files([path], roles=("mover", "vehicle")).errors == []
     assert check_files([path]).errors[0].message == "unknown role 'vehicle'"
+
+
+@pytest.mark.parametrize("raw, field, message", [
+    ("[" * 3000 + "]" * 3000, "record", "arrays or objects nested more than 32 deep"),  # deeper than json's recursion limit
+    (line(meta={"a": json.loads("[" * 32 + "1" + "]" * 32)}), "record", "nested more than 32 deep"),
+    ('{"id": "d1", "doc": "d", "doc": "e", "text": "We left."}', "record", "key(s) given twice in one object: doc"),
+    ('{"id": "s1", "doc": "d", "text": "We left \\udc80Caddow."}', "text", "holds a lone surrogate \\udc80 at character 8"),
+    ('{"id": "s2", "doc": "d", "text": "t", "meta": {"\\ud800": 1}}', "meta.<key>", "holds a lone surrogate"),
+    (json.dumps({"id": "long", "doc": "d", "text": "w " * 500_001}), "text",
+     "is 1,000,002 characters long, more than the parser takes (1,000,000)"),
+])
+def test_malformed_json_lines_are_located_errors(tmp_path, raw, field, message):
+    path = tmp_path / "bad.jsonl"
+    path.write_text(line() + "\n" + raw + "\n", encoding="utf-8")
+    result = check_files([path])
+    (problem,) = result.errors
+    assert (problem.line, problem.field) == (2, field)
+    assert problem.message.startswith(message) or message in problem.message
+    assert [r.id for _, _, r in result.records] == ["ok-1"]
+    with pytest.raises(CorpusError, match="1 error"):
+        read_corpus([path])  # the reader fit uses refuses what check reports
+    assert [r.id for r in read_corpus([path], skip_bad=True).records] == ["ok-1"]
+
+
+def test_the_example_record_of_the_annotation_spec_is_valid_and_its_offsets_cover_the_words():
+    import re
+    from pathlib import Path
+
+    spec = (Path(__file__).resolve().parents[2] / "docs" / "annotation-spec.md").read_text(encoding="utf-8")
+    example = json.loads(re.search(r"```json\n(.*?)```", spec, re.S).group(1))
+    result = check_line("annotation-spec.md", 1, json.dumps(example), ("mover", "source", "path", "destination"), set())
+    assert result.problems == []
+    text = example["text"]
+    words = [(text[slice(*e["trigger"])], [(r["role"], text[slice(*r["span"])]) for r in e["roles"]]) for e in example["events"]]
+    assert words == [("quit", [("mover", "the drovers"), ("source", "Ostley")]),
+                     ("pushed", [("mover", "the drovers"), ("path", "the Cairn Moor"), ("destination", "the ferry")])]

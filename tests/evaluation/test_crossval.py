@@ -23,7 +23,7 @@ DOCS = ("amsel-pilgrim-1", "brannick-log-1", "quarne-salt-1")
 def small(demo_train):
     records = read_corpus([demo_train / f"{d}.jsonl" for d in DOCS]).records
     configs = [config_from_dict({"name": "crf", "parser": {"use_cache": False},
-                                 "trigger_model": {"max_iterations": 15}, "role_model": {"max_iterations": 15}}),
+                                 "trigger_model": {"iterations": 15}, "role_model": {"iterations": 15}}),
                config_from_dict({"name": "rules", "parser": {"use_cache": False},
                                  "trigger_model": {"kind": "rules"}, "role_model": {"kind": "rules"}})]
     return records, configs, grouped_kfold([r.doc for r in records], 2, seed=3)

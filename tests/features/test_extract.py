@@ -8,9 +8,11 @@ import pytest
 import spacy
 from spacy.tokens import Doc
 
-from trainer.config import FEATURE_GROUPS, FeatureConfig
+from trainer.config import DEFAULT_FEATURE_GROUPS, FEATURE_GROUPS, FeatureConfig
 from trainer.features import groups
 from trainer.features.extract import CONTEXT_KEYS, Featurizer
+from trainer.features.rule_cues import rule_roles, rule_triggers
+from trainer.features.wordnet import packaged_classes, wordnet_features
 from trainer.features.gazetteer import Gazetteer
 from trainer.features.lexicons import load_lexicons
 
@@ -60,11 +62,12 @@ def test_each_group_alone_gives_exactly_its_keys_for_the_verb(doc: Doc, group: s
     assert set(featurizer(group).token_features(doc)[1]) == {"bias"} | keys
 
 
-def test_all_groups_for_the_object_of_through(doc: Doc) -> None:
-    features = featurizer(*FEATURE_GROUPS).token_features(doc)[4]
+def test_all_default_groups_for_the_object_of_through(doc: Doc) -> None:
+    features = featurizer(*DEFAULT_FEATURE_GROUPS).token_features(doc)[4]
     own = LEXICAL_KEYS | TAGGING_KEYS | SYNTAX_KEYS | {"gazetteer", "direction", "gov_prep_cue"}
     # Neighbours 'through', 'the' and '.' are no verbs, so they have no verb_class; +2 is past the end.
-    context = {f"{offset}:{key}" for offset in ("-2", "-1", "+1") for key in CONTEXT_KEYS if key != "verb_class"}
+    context = {f"{offset}:{key}" for offset in ("-2", "-1", "+1") for key in CONTEXT_KEYS
+               if key not in {"verb_class", "rule_trigger", "wn_first"}}  # the last two: groups not switched on
     assert set(features) == {"bias"} | own | context | {"+2:edge"}
     assert (features["-1:lower"], features["-2:gov_prep"], features["+1:lower"]) == ("the", "-", ".")
     assert (features["gazetteer"], features["gov_prep"], features["gov_prep_cue"]) == ("B", "through", "path")
@@ -91,8 +94,16 @@ def _own_keys(group: str, token: spacy.tokens.Token) -> set[str]:
         "tagging": lambda: set(groups.tagging(token)),
         "syntax": lambda: set(groups.syntax(token)),
         "lexicon": lambda: set(groups.lexicon(token, LEXICONS)),
+        "rules": lambda: set(_rule_tags(token)),
+        "wordnet": lambda: set(wordnet_features(token, packaged_classes())),
         "context": lambda: set(),
     }[group]()
+
+
+def _rule_tags(token: spacy.tokens.Token) -> dict:
+    doc = token.doc
+    arguments = [rule_roles(doc, (t.i, t.i + 1), LEXICONS) if t.pos_ == "VERB" else [] for t in doc]
+    return groups.rule_trigger_tags(doc, rule_triggers(doc, LEXICONS), arguments)[token.i]
 
 
 def test_context_window_follows_the_config(doc: Doc) -> None:

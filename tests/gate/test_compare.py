@@ -131,3 +131,104 @@ def test_junit_xml_has_the_element_structure_ci_systems_read():
 def test_baseline_refuses_unknown_scores():
     with pytest.raises(GateInputError, match="no score"):
         baseline_from_report(make_report(), system=None, scores=["vehicle"])
+
+
+def _gate(*args):
+    result = runner.invoke(app, ["gate", *map(str, args)])
+    assert "Traceback" not in result.output and (result.exception is None or isinstance(result.exception, SystemExit))
+    return result
+
+
+@pytest.mark.parametrize("where, value, message", [
+    (("f1", "mover"), None, "the baseline has no value for 'f1.mover'"),
+    (("f1", "mover"), float("nan"), "the baseline's 'f1.mover' is nan, not a finite number"),
+    (("f1", "mover"), "0.75", "the baseline's 'f1.mover' is not a number: \"0.75\""),
+    (("f1", "mover"), True, "the baseline's 'f1.mover' is not a number: true"),
+    (("intervals", "path"), [0.1], "the baseline's 'intervals.path' is not a [low, high] pair"),
+    (("intervals", "path"), [0.1, float("inf")], "the baseline's 'intervals.path[1]' is inf, not a finite number"),
+])
+def test_a_bad_baseline_score_is_exit_2_naming_the_field(files, where, value, message):
+    tmp, report, baseline = files
+    data = json.loads(baseline.read_text())
+    data[where[0]][where[1]] = value
+    baseline.write_text(json.dumps(data))  # json writes NaN and Infinity, which json.loads reads back
+    result = _gate(report, "--baseline", baseline)
+    assert result.exit_code == 2, result.output
+    assert message in result.output
+
+
+def test_an_empty_or_partial_baseline_is_exit_2_not_a_pass(files):
+    tmp, report, baseline = files
+    data = json.loads(baseline.read_text())
+    data["f1"] = {}
+    baseline.write_text(json.dumps(data))
+    result = _gate(report, "--baseline", baseline)
+    assert result.exit_code == 2 and "PASSED" not in result.output
+    assert "the baseline has no F1 for required score(s) ['micro', 'mover', 'source', 'path', 'destination', 'trigger']" \
+        in result.output
+    data["f1"] = {"micro": 0.76}
+    baseline.write_text(json.dumps(data))
+    result = _gate(report, "--baseline", baseline)
+    assert result.exit_code == 2
+    assert "no F1 for required score(s) ['mover', 'source', 'path', 'destination', 'trigger']" in result.output
+
+
+@pytest.mark.parametrize("damage, message", [
+    (lambda r: r["systems"][0]["scores"]["roles"]["mover"].update(f1=float("nan")),
+     "'systems['quick'].scores.roles.mover.f1' is nan, not a finite number"),
+    (lambda r: r["systems"][0]["scores"]["roles"]["path"].pop("f1"),
+     "the evaluation report has no value for 'systems['quick'].scores.roles.path.f1'"),
+    (lambda r: r["systems"][0]["scores"].update(micro={}), "no value for 'systems['quick'].scores.micro.f1'"),
+    (lambda r: r["systems"][0]["scores"].update(roles=[]), "no 'systems['quick'].scores.roles' object"),
+    (lambda r: r.update(systems={}), "the report has no list of configs ('systems')"),
+    (lambda r: r["systems"][0]["scores"]["trigger"].update(f1="high"), "scores.trigger.f1' is not a number: \"high\""),
+])
+def test_a_bad_report_score_is_exit_2_naming_the_field(files, damage, message):
+    tmp, _, baseline = files
+    report = make_report()
+    damage(report)
+    path = tmp / "bad.json"
+    path.write_text(json.dumps(report))
+    result = _gate(path, "--baseline", baseline)
+    assert result.exit_code == 2, result.output
+    assert message in result.output
+
+
+def test_malformed_files_are_exit_2(files, tmp_path):
+    _, report, baseline = files
+    (tmp_path / "deep.json").write_text("[" * 100000 + "]" * 100000)
+    (tmp_path / "list.json").write_text("[1, 2]")
+    for bad in ("deep.json", "list.json"):
+        assert _gate(tmp_path / bad, "--baseline", baseline).exit_code == 2
+        assert _gate(report, "--baseline", tmp_path / bad).exit_code == 2
+    broken = json.loads(baseline.read_text())
+    broken.pop("fingerprints")
+    (tmp_path / "nofp.json").write_text(json.dumps(broken))
+    result = _gate(report, "--baseline", tmp_path / "nofp.json")
+    assert result.exit_code == 2 and "lacks its 'system' name or its 'fingerprints'" in result.output
+
+
+def test_system_selects_the_config_that_is_gated(files):
+    tmp, _, baseline = files
+    report = make_report()
+    weaker = copy.deepcopy(report["systems"][0])
+    weaker["name"] = "weaker"
+    weaker["scores"]["roles"]["mover"]["f1"] = 0.5
+    report["systems"].append(weaker)
+    path = tmp / "two.json"
+    path.write_text(json.dumps(report))
+    assert _gate(path, "--baseline", baseline).exit_code == 0  # default: the baseline's config, 'quick'
+    chosen = _gate(path, "--baseline", baseline, "--system", "weaker")
+    assert chosen.exit_code == 1
+    assert "Gate on config `weaker`" in chosen.output and "| mover | 0.750 | 0.500 |" in chosen.output
+    missing = _gate(path, "--baseline", baseline, "--system", "absent")
+    assert missing.exit_code == 2 and "no config named 'absent'" in missing.output
+
+
+def test_accepting_a_report_with_a_non_finite_score_is_refused(tmp_path):
+    report = make_report(micro=float("nan"))
+    path = tmp_path / "r.json"
+    path.write_text(json.dumps(report))
+    result = _gate(path, "--baseline", tmp_path / "b.json", "--accept")
+    assert result.exit_code == 2 and "scores.micro.f1' is nan" in result.output
+    assert not (tmp_path / "b.json").exists()

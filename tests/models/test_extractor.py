@@ -21,8 +21,8 @@ def config_for(kind, tmp):
     trigger, role = KINDS[kind]
     return config_from_dict({
         "parser": {"cache_dir": str(tmp / "cache")},
-        "trigger_model": {"kind": trigger, "max_iterations": 80},
-        "role_model": {"kind": role, "max_iterations": 80},
+        "trigger_model": {"kind": trigger, "iterations": 80},
+        "role_model": {"kind": role, "iterations": 80},
     })
 
 

@@ -65,9 +65,70 @@ def test_interrupted_write_leaves_the_old_file_intact(model_file, monkeypatch):
     def explode(*args, **kwargs):
         raise KeyboardInterrupt
 
-    monkeypatch.setattr(persist.os, "fsync", explode)
+    from trainer import outputs
+
+    monkeypatch.setattr(outputs.os, "fsync", explode)
     with pytest.raises(KeyboardInterrupt):
         save_model({"weights": "new"}, model_file, {"kind": "test"})
     assert model_file.read_bytes() == before
     assert sorted(p.name for p in model_file.parent.iterdir()) == ["m.itin", "m.itin.sha256"]
     assert load_model(model_file).model == {"weights": [1, 2, 3]}
+
+
+def _sign(path):
+    import hashlib
+
+    digest_path(path).write_text(f"{hashlib.sha256(path.read_bytes()).hexdigest()}  {path.name}\n")
+
+
+def test_a_folder_named_as_the_model_is_refused(tmp_path):
+    with pytest.raises(ModelFileError, match="is a folder, not a model file") as caught:
+        load_model(tmp_path)
+    assert caught.value.exit_code == 2
+
+
+def test_a_digest_file_naming_another_file_is_refused(tmp_path, model_file):
+    other = tmp_path / "other.itin"
+    other.write_bytes(model_file.read_bytes())
+    digest_path(other).write_text(digest_path(model_file).read_text())  # right digest, but it names m.itin
+    with pytest.raises(ModelFileError, match=r"the digest file other.itin.sha256 is for another file \('m.itin'\)"):
+        load_model(other)
+
+
+def test_a_garbage_payload_with_a_valid_digest_is_refused_not_crashed(tmp_path):
+    garbage = tmp_path / "g.itin"
+    garbage.write_bytes(persist.MAGIC + b" 1\n" + b'{"format_version": 1, "versions": {}}\n' + b"not a pickle at all")
+    _sign(garbage)
+    with pytest.raises(ModelFileError, match="the model payload cannot be read"):
+        load_model(garbage)
+
+
+def test_a_payload_that_is_not_an_extractor_is_refused(model_file):
+    from trainer.models.training import load_extractor
+
+    with pytest.raises(ModelFileError, match="holds a dict, not an extractor"):
+        load_extractor(model_file)
+
+
+def test_a_kill_between_the_model_and_its_digest_still_leaves_a_loadable_pair(model_file, monkeypatch):
+    from trainer import outputs
+
+    written = []
+    real = outputs.os.replace
+
+    def killed_after_the_model(source, target):  # the process dies right after the model's rename
+        real(source, target)
+        written.append(str(target))
+        if str(target) == str(model_file):
+            raise KeyboardInterrupt
+
+    monkeypatch.setattr(outputs.os, "replace", killed_after_the_model)
+    with pytest.raises(KeyboardInterrupt):
+        save_model({"weights": "new"}, model_file, {"kind": "test"})
+    assert written == [str(digest_path(model_file)), str(model_file)]
+    assert len(digest_path(model_file).read_text().splitlines()) == 2  # old and new digests, both for m.itin
+    assert load_model(model_file).model == {"weights": "new"}
+    monkeypatch.setattr(outputs.os, "replace", real)
+    save_model({"weights": "newer"}, model_file, {"kind": "test"})
+    assert len(digest_path(model_file).read_text().splitlines()) == 1
+    assert load_model(model_file).model == {"weights": "newer"}

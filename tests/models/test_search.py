@@ -25,16 +25,16 @@ def test_inner_folds_never_split_a_doc_and_cover_every_record_once():
 
 
 def test_search_keeps_the_best_candidate_and_reports_every_score():
-    config = ModelConfig(kind="logistic", search={"C": [0.1, 1.0, 10.0]})
+    config = ModelConfig(kind="logistic", grid={"regularisation": [10.0, 1.0, 0.1]})
     seen_docs = set()
 
     def evaluate(candidate, train, test):
         seen_docs.update(recs[i].doc for i in train + test)
-        return {0.1: 0.5, 1.0: 0.9, 10.0: 0.7}[candidate.C]
+        return {10.0: 0.5, 1.0: 0.9, 0.1: 0.7}[candidate.regularisation]
 
     recs = records(["a", "b", "c"])
     best, results = search_stage(config, recs, [None] * len(recs), evaluate)
-    assert best.C == 1.0
+    assert best.regularisation == 1.0
     assert [r["mean_f1"] for r in results] == [0.5, 0.9, 0.7]
     assert seen_docs == {"a", "b", "c"}  # only the records it was given: the outer test docs never enter
 
@@ -42,7 +42,7 @@ def test_search_keeps_the_best_candidate_and_reports_every_score():
 def test_no_grid_or_one_doc_leaves_the_config_unchanged():
     config = ModelConfig(kind="logistic")
     assert search_stage(config, records(["a", "b"]), [None] * 4, lambda *a: 1 / 0) == (config, [])
-    gridded = ModelConfig(kind="logistic", search={"C": [1.0]})
+    gridded = ModelConfig(kind="logistic", grid={"regularisation": [1.0]})
     assert search_stage(gridded, records(["a"]), [None] * 2, lambda *a: 1 / 0) == (gridded, [])
 
 
@@ -51,10 +51,13 @@ def test_f1_of_sets_pools_counts():
 
 
 def test_search_grid_is_validated_in_the_config():
-    with pytest.raises(ConfigError, match="'role_model.search.gamma' is not a searchable parameter"):
-        config_from_dict({"role_model": {"search": {"gamma": [1]}}})
+    with pytest.raises(ConfigError, match="'role_model.grid.gamma' is not a setting the grid can tune"):
+        config_from_dict({"role_model": {"grid": {"gamma": [1]}}})
     with pytest.raises(ConfigError, match="'trigger_model.threshold' must lie in"):
-        config_from_dict({"trigger_model": {"search": {"threshold": [0.5, 2.0]}}})
+        config_from_dict({"trigger_model": {"grid": {"threshold": [0.5, 2.0]}}})
+    with pytest.raises(ConfigError, match="'role_model.grid.C' is no longer a config key") as caught:
+        config_from_dict({"role_model": {"grid": {"C": [1.0]}}})
+    assert "write 'role_model.grid.regularisation (= 1 / C)' instead" in str(caught.value)
 
 
 @pytest.mark.slow
@@ -65,10 +68,10 @@ def test_search_candidates_in_parallel_give_the_serial_result(nlp, demo_train):
     from trainer.models.training import fit_extractor
 
     records = read_corpus([demo_train / f"{d}.jsonl" for d in ("amsel-pilgrim-1", "quarne-salt-1", "varrow-uplands-1")]).records
-    config = config_from_dict({"parser": {"use_cache": False}, "trigger_model": {"kind": "logistic", "search": {"C": [0.1, 1.0]}},
+    config = config_from_dict({"parser": {"use_cache": False}, "trigger_model": {"kind": "logistic", "grid": {"regularisation": [10.0, 1.0]}},
                                "role_model": {"kind": "rules"}})
     serial = fit_extractor(records, config, nlp=nlp).extractor.search_results_
     with parallel_config(n_jobs=2):
         parallel = fit_extractor(records, config, nlp=nlp).extractor.search_results_
     assert serial == parallel
-    assert [r["params"] for r in serial["trigger_model"]] == [{"C": 0.1}, {"C": 1.0}]
+    assert [r["params"] for r in serial["trigger_model"]] == [{"regularisation": 10.0}, {"regularisation": 1.0}]

@@ -96,3 +96,18 @@ def test_misaligned_tags_are_refused():
 
     with pytest.raises(ConfigError, match="sentence 0: 2 tokens but 1 tags"):
         LogisticTagger().fit([[{"a": 1}, {"a": 2}]], [["O"]])
+
+
+# --- deciding spans token by token from tag probabilities ----------------------------------------
+
+
+def test_marginal_spans_start_where_b_reaches_the_threshold_and_extend_over_i() -> None:
+    from trainer.models.sequence import marginal_spans
+
+    probs = [{"O": 0.9, "B-T": 0.1}, {"B-T": 0.35, "O": 0.65}, {"I-T": 0.4, "O": 0.6}, {"I-T": 0.2, "O": 0.8},
+             {"B-T": 0.8, "O": 0.2}]
+    assert marginal_spans(probs, "T", 0.5) == [(4, 5, "T", 0.8)]
+    low = marginal_spans(probs, "T", 0.3)
+    assert [(f, e) for f, e, _, _ in low] == [(1, 3), (4, 5)]
+    assert low[0][3] == pytest.approx((0.35 + 0.4) / 2)
+    assert marginal_spans([], "T", 0.3) == []

@@ -72,8 +72,8 @@ def _config(tmp_path_factory, trigger: str, role: str):
     return config_from_dict({
         "name": f"{trigger}-{role}",
         "parser": {"cache_dir": str(tmp_path_factory.getbasetemp() / "uncertainty-cache")},
-        "trigger_model": {"kind": trigger, "max_iterations": 50},
-        "role_model": {"kind": role, "max_iterations": 50},
+        "trigger_model": {"kind": trigger, "iterations": 50},
+        "role_model": {"kind": role, "iterations": 50},
     })
 
 

@@ -245,3 +245,39 @@ def test_page_renders_in_headless_chromium(tmp_path: Path) -> None:
     assert shot.exists() and shot.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
     assert shot.stat().st_size > 30_000
     print(f"screenshot of the report: {shot}")
+
+
+def test_the_role_palette_stays_apart_under_colour_vision_deficiencies_and_keeps_text_readable():
+    import itertools
+
+    import numpy as np
+    from colorspacious import cspace_convert, deltaE
+
+    from trainer.reports.html import ROLE_COLOURS
+    from trainer.reports.plots import CONFIG_COLOURS
+
+    def rgb(colour):
+        return np.array([int(colour[i:i + 2], 16) for i in (1, 3, 5)]) / 255
+
+    def closest_pair(colours):
+        """Smallest CAM02-UCS colour difference between any two, seen normally and with each full-severity
+        deficiency (Machado et al. 2009 simulation, as colorspacious implements it)."""
+        smallest = float("inf")
+        for cvd in (None, "deuteranomaly", "protanomaly", "tritanomaly"):
+            seen = [rgb(c) if cvd is None else
+                    np.clip(cspace_convert(rgb(c), {"name": "sRGB1+CVD", "cvd_type": cvd, "severity": 100}, "sRGB1"), 0, 1)
+                    for c in colours]
+            smallest = min(smallest, min(float(deltaE(a, b, input_space="sRGB1")) for a, b in itertools.combinations(seen, 2)))
+        return smallest
+
+    def contrast_with_black(colour):
+        # WCAG 2 relative luminance and contrast ratio (W3C WCAG 2.1, 1.4.6)
+        linear = [v / 12.92 if v <= 0.04045 else ((v + 0.055) / 1.055) ** 2.4 for v in rgb(colour)]
+        return (0.2126 * linear[0] + 0.7152 * linear[1] + 0.0722 * linear[2] + 0.05) / 0.05
+
+    # A CAM02-UCS difference above 10 is clearly visible side by side (a rule of thumb, from memory).
+    assert closest_pair(ROLE_COLOURS.values()) > 14
+    assert closest_pair(CONFIG_COLOURS[:6]) > 10
+    assert min(contrast_with_black(c) for c in ROLE_COLOURS.values()) >= 9  # WCAG AAA asks 7:1
+    old_toolkit_tints = ("#ffd8a8", "#a5d8ff", "#b2f2bb", "#eebefa")
+    assert closest_pair(old_toolkit_tints) < 3  # the palette it replaces: deuteranomaly merges two roles

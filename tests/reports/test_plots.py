@@ -55,4 +55,4 @@ def test_learning_curve_plot_is_deterministic_and_two_rows_for_five_panels() -> 
 def test_config_styles_follow_report_order_and_cover_curve_only_configs() -> None:
     report = tiny_report(curve=True)
     report["learning_curve"]["systems"]["gamma"] = report["learning_curve"]["systems"]["beta"]
-    assert config_styles(report) == {"alpha": ("#1f77b4", "o"), "beta": ("#ff7f0e", "s"), "gamma": ("#2ca02c", "D")}
+    assert config_styles(report) == {"alpha": ("#0072b2", "o"), "beta": ("#e69f00", "s"), "gamma": ("#009e73", "D")}

@@ -8,7 +8,11 @@ Sits above models and evaluation, below reports and the CLI:
 - :mod:`trainer.annotation.merge`: :func:`merge_batches` brings corrected
   batches back into the corpus and reports conflicts;
 - :mod:`trainer.corpus.provenance`: ``predicted`` / ``corrected`` /
-  ``gold`` and :func:`training_records`, which refuses unreviewed predictions.
+  ``gold`` and :func:`training_records`, which refuses unreviewed predictions;
+- :mod:`trainer.annotation.review`: the review page, where a batch is
+  corrected in the browser and every change is checked and saved at once;
+- :mod:`trainer.annotation.agreement`: agreement between annotators (F1,
+  Cohen's and Fleiss' kappa, disagreements by kind).
 
 See docs/retraining.md for the workflow. Merging does not load spaCy;
 ``suggest_batch`` (which does) is imported on first use.

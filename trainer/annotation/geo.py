@@ -36,6 +36,7 @@ from typing import Any
 
 from trainer.annotation.itinerary import PLACE_ROLES, Itinerary, ItineraryRow, fold, table_separator
 from trainer.errors import ItinerantError, UnreadableInputError
+from trainer.outputs import write_text
 
 REQUIRED_COLUMNS = ("name", "latitude", "longitude")
 ALTERNATIVES = "alternatives"
@@ -286,8 +287,5 @@ def build_geojson(itinerary: Itinerary, gazetteer: Gazetteer) -> MapResult:
 
 def write_geojson(result: MapResult, path: Path | str) -> Path:
     """Write the FeatureCollection as UTF-8 JSON (RFC 7946 section 11 / RFC 8259), two-space indent."""
-    path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
     text = json.dumps(result.collection, indent=2, ensure_ascii=False, allow_nan=False)
-    path.write_text(text + "\n", encoding="utf-8", newline="\n")
-    return path
+    return write_text(path, text + "\n")

@@ -50,6 +50,7 @@ import pandas as pd
 
 from trainer.corpus.records import Event, Record
 from trainer.errors import ConfigError, ItinerantError
+from trainer.outputs import write_text
 
 FIRST_PERSON = "first_person"
 FIRST_PERSON_FORMS = frozenset({"i", "we", "us", "me", "our", "my"})
@@ -231,9 +232,5 @@ def table_separator(path: Path) -> str:
 
 def write_itinerary(itinerary: Itinerary, path: Path | str) -> Path:
     """Write the table as CSV or TSV (by extension), UTF-8, empty cells for no value; return the path."""
-    path = Path(path)
-    separator = table_separator(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    itinerary.to_frame().to_csv(path, sep=separator, index=False, na_rep="", lineterminator=LINE_END,
-                                encoding="utf-8")
-    return path
+    separator = table_separator(Path(path))
+    return write_text(path, itinerary.to_frame().to_csv(sep=separator, index=False, na_rep="", lineterminator=LINE_END))

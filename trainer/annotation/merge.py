@@ -42,6 +42,7 @@ from trainer.corpus.jsonl import write_jsonl
 from trainer.corpus.reader import read_corpus
 from trainer.corpus.records import DEFAULT_ROLES, Event, Record, RoleSpan
 from trainer.errors import CorpusError
+from trainer.outputs import check_output
 
 # training_records is re-exported: the training-data filter goes with the merge that stamps provenance.
 __all__ = ["MergeResult", "merge_batches", "merge_files", "training_records"]
@@ -156,8 +157,9 @@ def merge_files(
 
     The output is written even when there are conflicts (each conflicting id
     keeps its corpus version); callers should report them and exit non-zero.
-    ``output`` may be one of the corpus files: the write is atomic.
+    ``output`` may be one of the corpus files (the write is atomic), but not a batch.
     """
+    check_output(output, inputs=batches, what="merged corpus")
     corpus_records = read_corpus(list(corpus), roles=roles).records
     batch_records = [read_corpus([batch], roles=roles).records for batch in batches]
     result = merge_batches(corpus_records, batch_records)

@@ -8,13 +8,12 @@ mark, CRLF line ends, blank lines); everything else that is wrong is left to
 from __future__ import annotations
 
 import json
-import os
-import tempfile
 from pathlib import Path
 from typing import Any, Iterable, Iterator
 
 from trainer.corpus.records import Event, Record, RoleSpan
 from trainer.errors import UnreadableInputError
+from trainer.outputs import atomic_output
 
 
 def iter_lines(path: Path) -> Iterator[tuple[int, str]]:
@@ -97,17 +96,9 @@ def dumps_record(record: Record) -> str:
 
 def write_jsonl(records: Iterable[Record], path: Path) -> int:
     """Write records atomically (a temporary file renamed into place); return the count."""
-    path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
     count = 0
-    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8", newline="\n") as out:
-            for record in records:
-                out.write(dumps_record(record) + "\n")
-                count += 1
-        os.replace(tmp, path)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
+    with atomic_output(path) as out:
+        for record in records:
+            out.write(dumps_record(record) + "\n")
+            count += 1
     return count

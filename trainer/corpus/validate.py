@@ -12,13 +12,15 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Iterable
 
-from trainer.corpus.jsonl import iter_lines, record_from_dict
+from trainer.corpus.jsonl import iter_lines, record_from_dict, record_to_dict
 from trainer.corpus.records import DEFAULT_ROLES, Record
 
 ERROR = "error"
 WARNING = "warning"
 PLACE_ROLES = ("source", "path", "destination")
 _EDGE_CHARS = " \t\n\r.,;:!?\"'()[]{}—–-"  # characters a span should not start or end with
+MAX_TEXT_CHARS = 1_000_000  # spaCy's default Language.max_length (spaCy docs); longer texts are refused
+MAX_DEPTH = 32  # arrays and objects in one record nest at most this deep (a record itself needs 6)
 _KNOWN_KEYS = {
     "record": {"id", "doc", "text", "events", "meta"},
     "event": {"trigger", "roles", "confidence"},
@@ -170,8 +172,9 @@ class _LineChecker:
         if not isinstance(obj, dict):
             self.add("record", f"must be a JSON object, got {type(obj).__name__}", "one object per line")
             return None
-        if isinstance(obj.get("id"), str):
+        if isinstance(obj.get("id"), str) and _encodable(obj["id"]):
             self.record_id = obj["id"]
+        self.plain_strings(obj, "")
         self.unknown_keys(obj, "record", "")
         self.string_field(obj, "id", "give every record a unique id, e.g. 'journal-3-s014'")
         self.string_field(obj, "doc", "name the document the sentence comes from; folds are grouped by it")
@@ -179,9 +182,27 @@ class _LineChecker:
         if "meta" in obj and not isinstance(obj["meta"], dict):
             self.add("meta", f"must be an object, got {type(obj['meta']).__name__}", 'write "meta": {...} or leave it out')
         text = obj.get("text") if isinstance(obj.get("text"), str) else None
+        if text is not None and len(text) > MAX_TEXT_CHARS:
+            self.add("text", f"is {len(text):,} characters long, more than the parser takes ({MAX_TEXT_CHARS:,})",
+                     "split the text into sentences or paragraphs, one record each")
         if "events" in obj and text is not None:
             self.events(obj["events"], text)
         return None if self.has_errors else obj
+
+    def plain_strings(self, value: Any, where: str) -> None:
+        """Every string (keys too) must be encodable as UTF-8: no lone surrogates such as an unpaired \\ud800."""
+        stack = [(value, where)]
+        while stack:
+            item, at = stack.pop()
+            if isinstance(item, str) and not _encodable(item):
+                position = next(i for i, c in enumerate(item) if not _encodable(c))
+                self.add(at or "record", f"holds a lone surrogate {item[position].encode('utf-8', 'backslashreplace').decode()} "
+                         f"at character {position}", "write the character itself or a \\uXXXX pair; a surrogate alone is no text")
+            elif isinstance(item, dict):
+                stack.extend((v, f"{at}.{k}" if at else str(k)) for k, v in item.items())
+                stack.extend((k, f"{at}.<key>" if at else "<key>") for k in item)
+            elif isinstance(item, list):
+                stack.extend((v, f"{at}[{i}]") for i, v in enumerate(item))
 
     def events(self, events: Any, text: str) -> None:
         if not isinstance(events, list):
@@ -198,14 +219,87 @@ class _LineChecker:
             seen.setdefault(key, i)
 
 
+def _encodable(text: str) -> bool:
+    try:
+        text.encode("utf-8")
+    except UnicodeEncodeError:
+        return False
+    return True
+
+
+def _depth(value: Any) -> int:
+    """How deeply arrays and objects nest in a parsed JSON value (a scalar is 0), without recursion."""
+    deepest, stack = 0, [(value, 0)]
+    while stack:
+        item, level = stack.pop()
+        if isinstance(item, (dict, list)):
+            deepest = max(deepest, level + 1)
+            stack.extend((child, level + 1) for child in (item.values() if isinstance(item, dict) else item))
+    return deepest
+
+
+class _DuplicateKeys:
+    """An ``object_pairs_hook`` that builds dicts and remembers keys given twice in one object."""
+
+    def __init__(self) -> None:
+        self.repeated: list[str] = []
+
+    def __call__(self, pairs: list[tuple[str, Any]]) -> dict[str, Any]:
+        obj: dict[str, Any] = {}
+        for key, value in pairs:
+            if key in obj:
+                self.repeated.append(key)
+            obj[key] = value
+        return obj
+
+
+class StrictJSONError(ValueError):
+    """Text that is not one clean JSON value; ``hint`` says what to do."""
+
+    def __init__(self, message: str, hint: str) -> None:
+        super().__init__(message)
+        self.hint = hint
+
+
+def _too_deep() -> StrictJSONError:
+    return StrictJSONError(f"arrays or objects nested more than {MAX_DEPTH} deep",
+                           "a record itself needs six levels (record, events, event, roles, role, span); "
+                           "keep deeper data in another file")
+
+
+def strict_loads(text: str) -> Any:
+    """``json.loads`` that also refuses keys given twice in one object and nesting deeper than :data:`MAX_DEPTH`."""
+    hook = _DuplicateKeys()
+    try:
+        value = json.loads(text, object_pairs_hook=hook)
+    except json.JSONDecodeError as exc:
+        raise StrictJSONError(f"malformed JSON: {exc.msg} at column {exc.colno}",
+                              "each line must be one complete JSON object") from None
+    except RecursionError:  # nesting deeper than the parser itself goes
+        raise _too_deep() from None
+    if _depth(value) > MAX_DEPTH:
+        raise _too_deep()
+    if hook.repeated:
+        raise StrictJSONError(f"key(s) given twice in one object: {', '.join(sorted(set(hook.repeated)))}",
+                              "JSON readers keep only one of the values; write each key once")
+    return value
+
+
+def record_problems(record: Record, file: str, line: int, roles: tuple[str, ...]) -> list[Problem]:
+    """The errors the JSONL validation finds in an already built record (for the other formats' readers)."""
+    checker = _LineChecker(file, line, roles)
+    checker.check(record_to_dict(record))
+    return [p for p in checker.problems if p.severity == ERROR]
+
+
 def check_line(file: str, number: int, line: str, roles: tuple[str, ...], first_seen: dict[str, str] | set[str]) -> FileCheck:
     """Check one line; ``first_seen`` collects ids (a dict also remembers where each was first seen)."""
     result = FileCheck()
     checker = _LineChecker(file, number, roles)
     try:
-        obj = checker.check(json.loads(line))
-    except json.JSONDecodeError as exc:
-        checker.add("record", f"malformed JSON: {exc.msg} at column {exc.colno}", "each line must be one complete JSON object")
+        obj = checker.check(strict_loads(line))
+    except StrictJSONError as exc:
+        checker.add("record", str(exc), exc.hint)
         obj = None
     if obj is not None:
         if obj["id"] in first_seen:

@@ -23,7 +23,7 @@ from trainer.errors import ConfigError
 from trainer.evaluation.folds import FoldPlan
 from trainer.features.extract import Featurizer
 from trainer.models.extractor import MotionExtractor
-from trainer.models.training import parser_for
+from trainer.models.training import ParsedAuxiliary, parse_auxiliary, parser_for, with_auxiliary
 from trainer.parsing.parse import parse_records
 
 Progress = Callable[[str], None]
@@ -40,7 +40,7 @@ class FoldOutput:
     predicted_gold_triggers: list[Record]
     train_seconds: float
     predict_seconds: float
-    train_records: int
+    train_records: int  # of the target corpus; auxiliary corpora come on top
 
 
 @dataclass
@@ -69,6 +69,7 @@ class CrossvalRun:
     parsed: int
     cached: int
     docs: list[Doc] = field(default_factory=list, repr=False)
+    auxiliary: dict[str, ParsedAuxiliary] = field(default_factory=dict, repr=False)
 
 
 def _unique_names(configs: Sequence[ExperimentConfig]) -> list[str]:
@@ -79,14 +80,15 @@ def _unique_names(configs: Sequence[ExperimentConfig]) -> list[str]:
 
 
 def _run_fold(config: ExperimentConfig, featurizer: Featurizer, repeat: int, index: int, train: list[Record],
-              train_docs: list[Doc], test: list[Record], test_docs: list[Doc]) -> FoldOutput:
+              train_docs: list[Doc], test: list[Record], test_docs: list[Doc],
+              domains: list[str] | None, target_records: int) -> FoldOutput:
     started = time.perf_counter()
-    extractor = MotionExtractor(config, featurizer).fit(train, train_docs)
+    extractor = MotionExtractor(config, featurizer).fit(train, train_docs, domains=domains)
     trained_at = time.perf_counter()
     predicted = extractor.predict(test, test_docs)
     given = extractor.predict(test, test_docs, gold_triggers=True)
     return FoldOutput(config.name, repeat, index, predicted, given, trained_at - started,
-                      time.perf_counter() - trained_at, len(train))
+                      time.perf_counter() - trained_at, target_records)
 
 
 def run_crossval(
@@ -96,11 +98,15 @@ def run_crossval(
     *,
     nlp: Language | None = None,
     docs: Sequence[Doc] | None = None,
+    auxiliary: dict[str, ParsedAuxiliary] | None = None,
     jobs: int = 1,
     scheduler: str | None = None,
     progress: Progress | None = None,
 ) -> CrossvalRun:
     """Train every config on every fold's training docs and predict its held-out docs.
+
+    Each config's auxiliary corpora (``[auxiliary] corpora``) join every one of
+    its training folds and are never scored; pass ``auxiliary`` to reuse them parsed.
 
     All configs must use the same parser pipeline, so one parse of each record
     serves them all; pass ``docs`` (one per annotated record, in order) to reuse
@@ -121,6 +127,9 @@ def run_crossval(
         parsed, cached = stats.parsed, stats.cached
     else:
         parsed, cached = 0, len(docs)
+    if auxiliary is None:
+        auxiliary = parse_auxiliary([s for c in configs for s in c.auxiliary.corpora], target=annotated, nlp=nlp,
+                                    parser=configs[0].parser, roles=configs[0].roles, scheduler=scheduler)
     parse_seconds = time.perf_counter() - started
     featurizers = {c.name: Featurizer.from_config(c.features, nlp) for c in configs}
     by_doc: dict[str, list[int]] = {}
@@ -135,15 +144,17 @@ def run_crossval(
         for plan in plans:
             for index, (train_names, test_names) in enumerate(plan.folds):
                 train_ids, test_ids = pick(train_names), pick(test_names)
+                train, train_docs, domains = with_auxiliary([annotated[i] for i in train_ids],
+                                                            [docs[i] for i in train_ids], config, auxiliary)
                 tasks.append(delayed(_run_fold)(
-                    config, featurizers[config.name], plan.repeat, index, [annotated[i] for i in train_ids],
-                    [docs[i] for i in train_ids], [annotated[i] for i in test_ids], [docs[i] for i in test_ids]))
+                    config, featurizers[config.name], plan.repeat, index, train, train_docs,
+                    [annotated[i] for i in test_ids], [docs[i] for i in test_ids], domains, len(train_ids)))
     if progress:
         progress(f"{len(annotated)} records parsed ({cached} from cache) in {parse_seconds:.1f} s; "
                  f"{len(tasks)} training runs ({len(configs)} config(s) x {sum(len(p.folds) for p in plans)} fold(s))")
     outputs = _dispatch(tasks, jobs=jobs, scheduler=scheduler, progress=progress)
     systems = [SystemRun(name, config, [o for o in outputs if o.config == name]) for name, config in zip(names, configs)]
-    return CrossvalRun(annotated, list(plans), systems, parse_seconds, parsed, cached, list(docs))
+    return CrossvalRun(annotated, list(plans), systems, parse_seconds, parsed, cached, list(docs), auxiliary)
 
 
 def _dispatch(tasks: list, *, jobs: int, scheduler: str | None, progress: Progress | None) -> list[FoldOutput]:

@@ -43,13 +43,15 @@ def learning_curve(
         raise ConfigError(f"shares must lie in (0, 1], got {list(shares)}", "e.g. --shares 0.25,0.5,0.75,1")
     settings = settings or EvaluationSettings()
     annotated = [r for r in records if r.is_annotated]
+    auxiliary = None
     curve: dict[str, Any] = {"shares": sorted(shares), "systems": {c.name: [] for c in configs}}
     for share in sorted(shares):
         if progress:
             progress(f"learning curve: {share:.0%} of the training docs")
         shrunk = [shrink_plan(p, share, seed=settings.seed) for p in plans]
-        run = run_crossval(annotated, configs, shrunk, docs=docs, jobs=jobs, scheduler=scheduler, progress=progress)
-        docs = run.docs
+        run = run_crossval(annotated, configs, shrunk, docs=docs, auxiliary=auxiliary, jobs=jobs, scheduler=scheduler,
+                           progress=progress)
+        docs, auxiliary = run.docs, run.auxiliary
         for system in run.systems:
             parts = fold_counts(run, system, roles=system.config.roles, mode=settings.mode)
             scores = pool_folds(system, parts).scores()

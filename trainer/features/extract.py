@@ -16,8 +16,27 @@ from trainer.config import FeatureConfig
 from trainer.features import groups
 from trainer.features.gazetteer import Gazetteer, read_place_names
 from trainer.features.lexicons import Lexicons, load_lexicons
+from trainer.features.rule_cues import rule_roles, rule_triggers
+from trainer.features.wordnet import packaged_classes, wordnet_features
 
-CONTEXT_KEYS = ("lower", "lemma", "pos", "shape", "dep", "gov_prep", "verb_class", "gazetteer", "ent_type")
+# Keys copied from neighbouring tokens by the context group (absent keys, e.g. of a group switched off, are skipped).
+CONTEXT_KEYS = ("lower", "lemma", "pos", "shape", "dep", "gov_prep", "verb_class", "gazetteer", "ent_type",
+                "rule_trigger", "wn_first")
+DOMAIN_KEY = "domain"
+TARGET_DOMAIN = "target"
+
+
+def augment(features: groups.Features, domain: str) -> groups.Features:
+    """Feature augmentation for domain adaptation: each feature kept (shared) and copied under ``domain~``.
+
+    Daumé III (2007), "Frustratingly easy domain adaptation": a model trained on
+    a target corpus plus auxiliary ones learns shared weights and per-domain
+    corrections; predictions on the target use the shared and target copies.
+    """
+    out = dict(features)
+    out.update({f"{domain}~{key}": value for key, value in features.items()})
+    out[DOMAIN_KEY] = domain
+    return out
 
 
 def _optional_path(value: str) -> Path | None:
@@ -49,9 +68,19 @@ class Featurizer:
             gazetteer = Gazetteer.from_names(names, nlp, ignore_case=config.gazetteer_ignore_case)
         return cls(config, lexicons, gazetteer)
 
-    def token_features(self, doc: Doc) -> list[groups.Features]:
-        """One feature dict per token, without trigger-relative features."""
+    def token_features(self, doc: Doc, *, domain: str | None = None) -> list[groups.Features]:
+        """One feature dict per token, without trigger-relative features.
+
+        ``domain`` (``"target"`` or an auxiliary corpus's name) switches on
+        feature augmentation (:func:`augment`); the trigger-relative features
+        of :meth:`role_features` then follow the same domain.
+        """
         gazetteer_tags = self.gazetteer.tags(doc) if self.gazetteer else ["O"] * len(doc)
+        rule_tags = None
+        if "rules" in self.groups:
+            arguments = [rule_roles(doc, (t.i, t.i + 1), self.lexicons) if t.pos_ == "VERB" else [] for t in doc]
+            rule_tags = groups.rule_trigger_tags(doc, rule_triggers(doc, self.lexicons), arguments)
+        wordnet = packaged_classes() if "wordnet" in self.groups else None
         own: list[groups.Features] = []
         needs_gov = "syntax" in self.groups or "lexicon" in self.groups
         for token in doc:
@@ -65,19 +94,29 @@ class Featurizer:
                 features.update(groups.syntax(token, gov))
             if "lexicon" in self.groups:
                 features.update(groups.lexicon(token, self.lexicons, gazetteer_tags[token.i], gov))
+            if rule_tags is not None:
+                features.update(rule_tags[token.i])
+            if wordnet is not None:
+                features.update(wordnet_features(token, wordnet))
             own.append(features)
-        if "context" not in self.groups:
-            return own
-        return [
-            {**features, **groups.context(own, i, self.config.window, CONTEXT_KEYS)} for i, features in enumerate(own)
-        ]
+        if "context" in self.groups:
+            own = [{**features, **groups.context(own, i, self.config.window, CONTEXT_KEYS)}
+                   for i, features in enumerate(own)]
+        return own if domain is None else [augment(features, domain) for features in own]
 
     def role_features(
         self, doc: Doc, trigger: tuple[int, int], base: list[groups.Features] | None = None
     ) -> list[groups.Features]:
         """Token features plus, when enabled, features relative to one trigger (token range)."""
         base = base if base is not None else self.token_features(doc)
-        if "trigger_relative" not in self.groups:
-            return [dict(f) for f in base]
-        relative = groups.trigger_relative_all(doc, trigger, self.lexicons)
+        relative: list[groups.Features] = [{} for _ in doc]
+        if "trigger_relative" in self.groups:
+            relative = groups.trigger_relative_all(doc, trigger, self.lexicons)
+        if "rules" in self.groups:
+            cues = groups.rule_role_tags(doc, rule_roles(doc, trigger, self.lexicons))
+            relative = [{**rel, **cue} for rel, cue in zip(relative, cues)]
+        domain = base[0].get(DOMAIN_KEY) if base else None
+        if domain is not None:
+            relative = [{key: value for key, value in augment(rel, str(domain)).items() if key != DOMAIN_KEY}
+                        for rel in relative]
         return [{**own, **rel} for own, rel in zip(base, relative)]

@@ -9,10 +9,14 @@ from __future__ import annotations
 
 import functools
 from dataclasses import dataclass
+from typing import TYPE_CHECKING, Sequence
 
 from spacy.tokens import Doc, Token
 
 from trainer.features.lexicons import Lexicons
+
+if TYPE_CHECKING:  # rule_cues imports this module for governing_preposition
+    from trainer.features.rule_cues import RuleRole, RuleTrigger
 
 Features = dict[str, str | float | bool]
 
@@ -276,3 +280,49 @@ def trigger_relative_all(doc: Doc, trigger: tuple[int, int], lexicons: Lexicons)
     """:func:`trigger_relative` for every token of ``doc``, with the trigger's own parts computed once."""
     info = _trigger(doc, trigger, lexicons)
     return [_relative(token, info) for token in doc]
+
+
+def rule_trigger_tags(doc: Doc, triggers: Sequence["RuleTrigger"],
+                      arguments: Sequence[Sequence["RuleRole"]]) -> list[Features]:
+    """The rules' trigger decisions as token features (stacking), for ``rules`` group.
+
+    ``rule_trigger`` is the BIO tag of the rule finder's kept triggers; a lexicon
+    trigger the rules dropped gets ``rule_blocked`` (``negated``, ``modal``,
+    ``not_yet``); every lexicon trigger gets ``rule_class`` (its motion class).
+    ``arguments`` holds, per token, the roles the rule patterns would give it
+    as a trigger (for verbs; empty for other tokens): ``rule_arg=<role>`` for
+    each source, path or destination found, and ``rule_args`` for their set,
+    so a verb missing from the lexicons still shows spatial arguments.
+    """
+    out: list[Features] = [{"rule_trigger": "O"} for _ in doc]
+    for features, found in zip(out, arguments):
+        roles = sorted({r.role for r in found if r.role != "mover"})
+        if roles:
+            features["rule_args"] = "+".join(roles)
+            features.update({f"rule_arg={role}": True for role in roles})
+    for trigger in triggers:
+        for i in range(trigger.first, trigger.end):
+            features = out[i]
+            features["rule_class"] = trigger.motion_class
+            if trigger.blocked:
+                features["rule_blocked"] = trigger.blocked
+            else:
+                features["rule_trigger"] = "B" if i == trigger.first else "I"
+    return out
+
+
+def rule_role_tags(doc: Doc, roles: Sequence["RuleRole"]) -> list[Features]:
+    """The roles the rules give the current trigger, as token features (stacking), for ``rules`` group.
+
+    ``rule_role`` is a BIO tag with the role (``B-source``); ``rule_cue`` names
+    what gave it (``subject``, ``object:departure``, ``prep:from``, ``possessor``).
+    Where two rule spans overlap, the first one listed wins.
+    """
+    out: list[Features] = [{"rule_role": "O"} for _ in doc]
+    for role in roles:
+        if any(out[i]["rule_role"] != "O" for i in range(role.first, role.end)):
+            continue
+        for i in range(role.first, role.end):
+            out[i]["rule_role"] = f"{'B' if i == role.first else 'I'}-{role.role}"
+            out[i]["rule_cue"] = role.cue
+    return out

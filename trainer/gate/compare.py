@@ -13,12 +13,14 @@ baseline's bootstrap interval (minus the tolerance).
 from __future__ import annotations
 
 import json
+import math
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
 from trainer.config import GateConfig
 from trainer.errors import ItinerantError
+from trainer.outputs import check_output, write_text
 
 BASELINE_SCHEMA = "itinerant.gate-baseline"
 BASELINE_VERSION = 1
@@ -66,6 +68,12 @@ def read_json(path: Path, what: str) -> dict[str, Any]:
         data = json.loads(Path(path).read_text(encoding="utf-8"))
     except FileNotFoundError:
         raise GateInputError(f"{path}: no such {what}", "check the path") from None
+    except IsADirectoryError:
+        raise GateInputError(f"{path}: is a folder, not a {what} file", "name the JSON file") from None
+    except OSError as exc:
+        raise GateInputError(f"{path}: cannot read the {what} ({exc.strerror})", "check the path and permissions") from None
+    except RecursionError:
+        raise GateInputError(f"{path}: nested too deeply to be a {what}", f"regenerate the {what}") from None
     except ValueError as exc:
         raise GateInputError(f"{path}: not valid JSON ({exc})", f"regenerate the {what}") from None
     if not isinstance(data, dict):
@@ -88,11 +96,30 @@ def fingerprints(report: dict[str, Any]) -> dict[str, Any]:
 
 
 def pick_system(report: dict[str, Any], name: str | None) -> dict[str, Any]:
-    systems = report.get("systems") or []
+    systems = report.get("systems")
+    if not isinstance(systems, list) or not systems or not all(isinstance(s, dict) for s in systems):
+        raise GateInputError("the report has no list of configs ('systems')", "gate a report.json written by `itinerant crossval`")
     for system in systems:
         if name is None or system.get("name") == name:
             return system
     raise GateInputError(f"no config named {name!r} in the report", f"choose from: {[s.get('name') for s in systems]}")
+
+
+def score_value(value: Any, field: str, what: str) -> float:
+    """A finite number, or a :class:`GateInputError` naming the field."""
+    if value is None:
+        raise GateInputError(f"the {what} has no value for '{field}'", f"regenerate the {what}")
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        raise GateInputError(f"the {what}'s '{field}' is not a number: {json.dumps(value)[:60]}", f"regenerate the {what}")
+    if not math.isfinite(value):
+        raise GateInputError(f"the {what}'s '{field}' is {value}, not a finite number", f"regenerate the {what}")
+    return float(value)
+
+
+def _get(data: Any, path: tuple[str, ...]) -> Any:
+    for key in path:
+        data = data.get(key) if isinstance(data, dict) else None
+    return data
 
 
 def baseline_from_report(report: dict[str, Any], *, system: str | None, scores: list[str]) -> dict[str, Any]:
@@ -108,27 +135,64 @@ def baseline_from_report(report: dict[str, Any], *, system: str | None, scores: 
         "system": chosen["name"],
         "fingerprints": fingerprints(report),
         "f1": {s: f1s[s] for s in scores},
-        "intervals": {s: chosen["intervals"][s] for s in scores},
+        "intervals": {s: _interval(chosen, s) for s in scores},
     }
 
 
+def _interval(system: dict[str, Any], score: str) -> list[float]:
+    where = f"systems[{system.get('name')!r}].intervals.{score}"
+    interval = _get(system, ("intervals", score))
+    if not (isinstance(interval, list) and len(interval) == 2):
+        raise GateInputError(f"the evaluation report's '{where}' is not a [low, high] pair", "regenerate the report")
+    return [score_value(end, f"{where}[{i}]", "evaluation report") for i, end in enumerate(interval)]
+
+
 def _f1s(system: dict[str, Any]) -> dict[str, float]:
-    scores = system["scores"]
-    out = {role: values["f1"] for role, values in scores["roles"].items()}
-    out.update(micro=scores["micro"]["f1"], macro=scores["macro"]["f1"], trigger=scores["trigger"]["f1"])
-    return out
+    """Every F1 of one config of a report, each checked to be a finite number."""
+    where = f"systems[{system.get('name')!r}].scores"
+    roles = _get(system, ("scores", "roles"))
+    if not isinstance(roles, dict):
+        raise GateInputError(f"the evaluation report has no '{where}.roles' object", "gate a report.json written by `itinerant crossval`")
+    paths = {**{role: ("roles", role, "f1") for role in roles}, **{k: (k, "f1") for k in ("micro", "macro", "trigger")}}
+    return {name: score_value(_get(system["scores"], path), f"{where}.{'.'.join(path)}", "evaluation report")
+            for name, path in paths.items()}
+
+
+def check_baseline_scores(baseline: dict[str, Any], required: list[str]) -> None:
+    """Every required score has a finite F1 and a two-number interval in the baseline."""
+    f1, intervals = baseline.get("f1"), baseline.get("intervals")
+    if not isinstance(f1, dict) or not isinstance(intervals, dict):
+        raise GateInputError("the baseline has no 'f1' and 'intervals' objects", "record one with `itinerant gate ... --accept`")
+    missing = [s for s in required if s not in f1]
+    if missing or not f1:
+        raise GateInputError(f"the baseline has no F1 for required score(s) {missing or required}",
+                             "re-record the baseline with --accept, or change [gate] scores")
+    for name, value in f1.items():
+        score_value(value, f"f1.{name}", "baseline")
+        interval = intervals.get(name)
+        if not (isinstance(interval, list) and len(interval) == 2):
+            raise GateInputError(f"the baseline's 'intervals.{name}' is not a [low, high] pair", "re-record the baseline with --accept")
+        for i, end in enumerate(interval):
+            score_value(end, f"intervals.{name}[{i}]", "baseline")
 
 
 def check_baseline(baseline: dict[str, Any]) -> None:
     if baseline.get("schema") != BASELINE_SCHEMA or baseline.get("schema_version") != BASELINE_VERSION:
         raise GateInputError(f"not a gate baseline of version {BASELINE_VERSION} (schema {baseline.get('schema')!r}, "
                              f"version {baseline.get('schema_version')!r})", "record one with `itinerant gate ... --accept`")
+    if not isinstance(baseline.get("system"), str) or not isinstance(baseline.get("fingerprints"), dict):
+        raise GateInputError("the baseline lacks its 'system' name or its 'fingerprints'", "record one with `itinerant gate ... --accept`")
 
 
 def compare(report: dict[str, Any], baseline: dict[str, Any], config: GateConfig, *,
-            allow_mismatch: bool = False) -> GateResult:
-    """A verdict per gated score; refuses different fingerprints unless ``allow_mismatch``."""
+            allow_mismatch: bool = False, system: str | None = None) -> GateResult:
+    """A verdict per gated score; refuses different fingerprints unless ``allow_mismatch``.
+
+    ``system`` picks the report's config to gate (default: the one the baseline was cut from).
+    Every score of ``config.scores`` must be in both, as a finite number.
+    """
     check_baseline(baseline)
+    check_baseline_scores(baseline, config.scores)
     now_prints, base_prints = fingerprints(report), baseline["fingerprints"]
     mismatches = [f"{key}: baseline {base_prints.get(key)!r}, report {value!r}"
                   for key, value in now_prints.items() if base_prints.get(key) != value]
@@ -136,17 +200,18 @@ def compare(report: dict[str, Any], baseline: dict[str, Any], config: GateConfig
         raise GateInputError("the report and the baseline were made on different " + "; ".join(mismatches),
                              "compare like with like, re-record the baseline with --accept after an intended change, "
                              "or pass --allow-mismatch")
-    f1s = _f1s(pick_system(report, baseline["system"]))
+    gated = system or baseline["system"]
+    f1s = _f1s(pick_system(report, gated))
     verdicts = []
     for score, before in baseline["f1"].items():
         if score not in f1s:
-            raise GateInputError(f"the report has no score {score!r}", "gate a report with the same roles")
+            raise GateInputError(f"the report has no score {score!r} for config {gated!r}", "gate a report with the same roles")
         tolerance = config.role_tolerances.get(score, config.tolerance)
         floor = before - tolerance if config.rule == "drop" else baseline["intervals"][score][0] - tolerance
         now = f1s[score]
         verdict = REGRESSION if now < floor - 1e-12 else IMPROVED if now > before + tolerance else PASS
         verdicts.append(Verdict(score, before, now, round(before - floor, 6), round(floor, 6), verdict))
-    return GateResult(baseline["system"], config.rule, verdicts, mismatches)
+    return GateResult(gated, config.rule, verdicts, mismatches)
 
 
 def markdown_table(result: GateResult) -> str:
@@ -172,13 +237,17 @@ def gate_config_of(report: dict[str, Any], system: str | None) -> GateConfig:
     """The ``[gate]`` settings recorded with the gated config in the report."""
     from trainer.config import config_from_dict
 
-    recorded = pick_system(report, system).get("config", {})
-    return config_from_dict({"gate": recorded.get("gate", {})}, "the report's config").gate
+    recorded = pick_system(report, system).get("config")
+    gate = recorded.get("gate", {}) if isinstance(recorded, dict) else {}
+    if not isinstance(gate, dict):
+        raise GateInputError("the report's config has a [gate] section that is not a table", "regenerate the report")
+    return config_from_dict({"gate": gate}, "the report's config").gate
 
 
 def accept_baseline(report_path: Path, baseline_path: Path, *, system: str | None, config: GateConfig) -> dict[str, Any]:
     """Record a report's scores as the new baseline (after an intended change)."""
+    report_file = Path(report_path) / "report.json" if Path(report_path).is_dir() else Path(report_path)
+    check_output(baseline_path, inputs=[report_path, report_file], what="baseline")
     baseline = baseline_from_report(load_report(report_path), system=system, scores=config.scores)
-    baseline_path.parent.mkdir(parents=True, exist_ok=True)
-    baseline_path.write_text(json.dumps(baseline, indent=2) + "\n", encoding="utf-8")
+    write_text(baseline_path, json.dumps(baseline, indent=2) + "\n")
     return baseline

@@ -1,14 +1,19 @@
 """Applying a trained extractor: to records, to a string, and to whole files in batches.
 
 File extraction streams: input is read, parsed, labelled and written one batch
-at a time, so memory does not grow with the book. An interrupted run can be
-resumed from its own output: complete records are kept, the torn tail is cut
-(for plain text, back to the start of the last paragraph written), and
+at a time, so memory does not grow with the book. The records go to
+``<output>.partial``, which is renamed to the output only when the run is
+complete; an earlier output is never touched before that. An interrupted run
+can be resumed from its partial file: complete records are kept, the torn tail
+is cut (for plain text, back to the start of the last paragraph written), and
 extraction goes on from there, giving the same file as an uninterrupted run.
+The side file ``<output>.input`` records the input's SHA-256, format and doc
+name, so a resume with another input is refused instead of mixing the two.
 """
 
 from __future__ import annotations
 
+import hashlib
 import json
 import os
 from dataclasses import dataclass, field
@@ -22,12 +27,15 @@ from spacy.tokens import Doc
 from trainer.corpus.jsonl import dumps_record
 from trainer.corpus.reader import iter_records
 from trainer.corpus.records import Record
-from trainer.errors import CorpusError
+from trainer.errors import CorpusError, UnreadableInputError
 from trainer.models.training import TrainedExtractor, parser_for
+from trainer.outputs import WRITE_ERRNOS, check_output, output_lock, publish, write_failed, write_text
 from trainer.parsing.parse import parse_records
 from trainer.parsing.text import iter_paragraphs, paragraphs, sentence_records
 
 Progress = Callable[[int, float], None]  # sentences written so far, share of the input read
+PARTIAL_SUFFIX = ".partial"
+INPUT_NOTE_SUFFIX = ".input"
 
 
 def predict_records(
@@ -136,6 +144,58 @@ def _jsonl_pairs(trained: TrainedExtractor, source: Path, point: ResumePoint, sk
         yield record, None
 
 
+def partial_path(target: Path) -> Path:
+    """Where a run writes until it is complete: ``<target>.partial``, renamed to ``target`` at the end."""
+    return target.with_name(target.name + PARTIAL_SUFFIX)
+
+
+def input_note_path(output: Path) -> Path:
+    """The side file naming the input an output (or a partial output) was made from."""
+    return output.with_name(output.name + INPUT_NOTE_SUFFIX)
+
+
+def input_note(source: Path, input_format: str, doc_name: str) -> dict[str, str]:
+    """What identifies an extraction's input: the SHA-256 of its bytes, its format and the doc name used."""
+    digest = hashlib.sha256()
+    with open(source, "rb") as handle:
+        for block in iter(lambda: handle.read(1 << 20), b""):
+            digest.update(block)
+    return {"sha256": digest.hexdigest(), "format": input_format, "doc": doc_name}
+
+
+def _recorded_note(output: Path) -> dict[str, str] | None:
+    try:
+        note = json.loads(input_note_path(output).read_text(encoding="utf-8"))
+    except (OSError, ValueError):
+        return None
+    return note if isinstance(note, dict) else None
+
+
+def check_source(source: Path) -> None:
+    """Refuse a missing input or a folder before anything is loaded."""
+    if not source.exists():
+        raise UnreadableInputError(f"{source}: no such file", "check the input path")
+    if not source.is_file():
+        raise UnreadableInputError(f"{source}: is a folder, not a file", "name a .txt or .jsonl file")
+
+
+def _resume_base(target: Path, wanted: dict[str, str]) -> Path | None:
+    """The output an interrupted run left (its partial file first), checked to come from the same input."""
+    partial = partial_path(target)
+    base = partial if partial.exists() else target if target.exists() else None
+    if base is None:
+        return None
+    recorded = _recorded_note(base)
+    if recorded is None:
+        raise CorpusError(f"{base} has no readable record of its input ({input_note_path(base).name} beside it), "
+                          "so resuming could mix two inputs", "start a new output file (leave out --resume)")
+    if recorded != wanted:
+        raise CorpusError(f"{base} was not made from this input (SHA-256, format and doc name are recorded in "
+                          f"{input_note_path(base).name})",
+                          "resume only with the same input, or start a new output file (leave out --resume)")
+    return base
+
+
 def extract_file(
     trained: TrainedExtractor, source: Path, target: Path, *, input_format: str = "text", doc_name: str | None = None,
     batch_size: int = 256, nlp: Language | None = None, skip_bad: bool = False, resume: bool = False,
@@ -143,34 +203,64 @@ def extract_file(
 ) -> ExtractionSummary:
     """Extract events from a plain-text or JSONL file into canonical JSONL, one batch at a time.
 
-    With ``resume``, an existing ``target`` is continued (see the module docstring);
-    without it, ``target`` is overwritten.
+    Records go to ``<target>.partial``, which replaces ``target`` only when the
+    run is complete, so an earlier ``target`` survives a crash or a kill. With
+    ``resume``, the partial file (or a complete ``target``) is continued (see
+    the module docstring) after checking, against its side file
+    ``<output>.input``, that it was made from the same input. ``target`` may not
+    be ``source``, and a second run writing the same ``target`` is refused.
     """
     source, target = Path(source), Path(target)
-    nlp = nlp or parser_for(trained.config)
-    summary = ExtractionSummary()
+    check_source(source)
+    check_output(target, inputs=[source], what="extraction output")
     plain_text = input_format == "text"
-    point = resume_point(target, plain_text=plain_text) if resume else ResumePoint()
-    summary.resumed = point.records
-    read = [0]
-    total = _input_size(source, plain_text=plain_text) if on_progress else 0
-    pairs = (_text_pairs(nlp, source, doc_name or source.stem, point, read) if plain_text
-             else _jsonl_pairs(trained, source, point, summary.skipped, read, skip_bad))
-    target.parent.mkdir(parents=True, exist_ok=True)
-    if target.exists() and resume:
-        os.truncate(target, point.keep_bytes)
-    with open(target, "a" if resume else "w", encoding="utf-8", newline="\n") as out:
-        for batch in _batches(pairs, batch_size):
-            records = [r for r, _ in batch]
-            docs = [d for _, d in batch] if batch[0][1] is not None else None
-            for record in predict_records(trained, records, nlp=nlp, docs=docs):
-                out.write(dumps_record(record) + "\n")
-                summary.sentences += 1
-                summary.events += len(record.events or ())
-                summary.roles += sum(len(e.roles) for e in record.events or ())
-            out.flush()
-            if on_progress:
-                on_progress(summary.sentences, min(1.0, read[0] / total) if total else 1.0)
+    doc_name = doc_name or source.stem
+    with output_lock(target):
+        wanted = input_note(source, input_format, doc_name)
+        base = _resume_base(target, wanted) if resume else None
+        point = resume_point(base, plain_text=plain_text) if base else ResumePoint()
+        partial = partial_path(target)
+        if base == target:
+            with open(target, "rb") as old, open(partial, "wb") as new:
+                new.write(old.read(point.keep_bytes))
+        elif base == partial:
+            os.truncate(partial, point.keep_bytes)
+        else:
+            partial.write_bytes(b"")
+        write_text(input_note_path(partial), json.dumps(wanted, sort_keys=True) + "\n")
+        nlp = nlp or parser_for(trained.config)
+        summary = ExtractionSummary(resumed=point.records)
+        read = [0]
+        total = _input_size(source, plain_text=plain_text) if on_progress else 0
+        pairs = (_text_pairs(nlp, source, doc_name, point, read) if plain_text
+                 else _jsonl_pairs(trained, source, point, summary.skipped, read, skip_bad))
+        with open(partial, "a", encoding="utf-8", newline="\n") as out:
+            try:
+                for batch in _batches(pairs, batch_size):
+                    _write_batch(trained, nlp, batch, out, summary)
+                    if on_progress:
+                        on_progress(summary.sentences, min(1.0, read[0] / total) if total else 1.0)
+                publish(out, partial, target)
+            except UnicodeDecodeError as exc:
+                raise UnreadableInputError(f"{source}: not UTF-8 text (byte {exc.start} of the undecodable chunk)",
+                                           "re-save the file as UTF-8") from None
+            except OSError as exc:
+                if exc.errno not in WRITE_ERRNOS:
+                    raise
+                raise write_failed(target, exc) from None
+        os.replace(input_note_path(partial), input_note_path(target))
     if on_progress:
         on_progress(summary.sentences, 1.0)
     return summary
+
+
+def _write_batch(trained: TrainedExtractor, nlp: Language, batch: list[tuple[Record, Doc | None]], out,
+                 summary: ExtractionSummary) -> None:
+    records = [r for r, _ in batch]
+    docs = [d for _, d in batch] if batch[0][1] is not None else None
+    for record in predict_records(trained, records, nlp=nlp, docs=docs):
+        out.write(dumps_record(record) + "\n")
+        summary.sentences += 1
+        summary.events += len(record.events or ())
+        summary.roles += sum(len(e.roles) for e in record.events or ())
+    out.flush()

@@ -1,4 +1,4 @@
-"""Argument phrases: the noun phrase around a token, and candidate phrases in a sentence.
+"""Candidate argument phrases in a sentence (the noun phrase itself: :func:`trainer.features.rule_cues.phrase_span`).
 
 Spans follow the annotation guide: the noun phrase with its determiners and
 adjectives and an ``of`` complement naming the place, without the governing
@@ -7,34 +7,12 @@ preposition, trailing relative clauses, appositions or punctuation.
 
 from __future__ import annotations
 
-from spacy.tokens import Doc, Span, Token
+from spacy.tokens import Doc, Span
 
 from trainer.features.gazetteer import Gazetteer
+from trainer.features.rule_cues import phrase_span
 
-_CUT_DEPS = {"relcl", "appos", "punct", "acl", "advcl", "cc", "conj", "prep", "mark", "dep"}
 PRONOUN_TAGS = {"PRP", "PRP$"}
-
-
-def phrase_span(token: Token) -> tuple[int, int]:
-    """Token range ``[first, end)`` of the noun phrase headed by ``token``.
-
-    Keeps left modifiers and an ``of`` complement; cuts at relative clauses,
-    appositions, coordinations, other prepositional phrases and punctuation.
-    """
-    first = token.i
-    for child in token.lefts:
-        if child.dep_ not in _CUT_DEPS:
-            first = min(first, child.left_edge.i)
-    end = token.i + 1
-    for child in token.rights:
-        if child.dep_ in _CUT_DEPS and not (child.dep_ == "prep" and child.lower_ == "of"):
-            break
-        end = max(end, child.right_edge.i + 1)
-    while end - 1 > first and token.doc[end - 1].is_punct:
-        end -= 1
-    while first < token.i and token.doc[first].is_punct:
-        first += 1
-    return first, end
 
 
 def candidate_phrases(doc: Doc, gazetteer: Gazetteer | None = None) -> list[tuple[int, int, str]]:

@@ -15,12 +15,16 @@ from spacy.tokens import Doc
 from trainer.config import ExperimentConfig, ModelConfig
 from trainer.corpus.records import Event, Record, RoleSpan
 from trainer.errors import ConfigError
-from trainer.features.extract import Featurizer
+from trainer.features.extract import TARGET_DOMAIN, Featurizer
 from trainer.models.rules import RuleRoleLabeller, RuleTriggerFinder
-from trainer.models.search import f1_of_sets, search_stage
+from trainer.models.search import f1_of_sets, inner_folds, search_stage
+from trainer.models.sequence import marginal_spans
 from trainer.models.sequence import CRFTagger, LogisticTagger
-from trainer.models.stages import CandidateRoleLinker, SequenceRoleLabeller, SequenceTriggerFinder
+from trainer.models.stages import TRIGGER_LABEL, CandidateRoleLinker, SequenceRoleLabeller, SequenceTriggerFinder
 from trainer.parsing.align import AlignmentReport, span_to_tokens, tokens_to_span
+
+
+THRESHOLD_GRID = tuple(round(0.05 * k, 2) for k in range(2, 13))  # 0.10 ... 0.60
 
 
 @dataclass
@@ -49,11 +53,20 @@ def gold_targets(records: Sequence[Record], docs: Sequence[Doc]) -> GoldTargets:
     return targets
 
 
+# Our optimiser names -> the CRF library's training algorithms.
+CRF_ALGORITHMS = {"lbfgs": "lbfgs", "sgd": "l2sgd", "averaged_perceptron": "ap", "passive_aggressive": "pa", "arow": "arow"}
+
+
+def _logistic_settings(config: ModelConfig) -> dict:
+    """Our logistic settings in the library's terms: C is the inverse of the regularisation strength."""
+    return {"C": 1.0 / config.regularisation, "class_weight": "balanced" if config.balance_classes else "none"}
+
+
 def _tagger(config: ModelConfig) -> CRFTagger | LogisticTagger:
     if config.kind == "crf":
-        return CRFTagger(c1=config.c1, c2=config.c2, algorithm=config.algorithm,
-                         max_iterations=config.max_iterations, threshold=config.threshold)
-    return LogisticTagger(C=config.C, class_weight=config.class_weight, threshold=config.threshold)
+        return CRFTagger(c1=config.l1_penalty, c2=config.l2_penalty, algorithm=CRF_ALGORITHMS[config.optimiser],
+                         max_iterations=config.iterations, threshold=config.threshold)
+    return LogisticTagger(**_logistic_settings(config), threshold=config.threshold)
 
 
 def build_trigger_finder(config: ModelConfig, featurizer: Featurizer):
@@ -68,7 +81,7 @@ def build_role_labeller(config: ModelConfig, featurizer: Featurizer):
     if config.kind == "rules":
         return RuleRoleLabeller(featurizer.lexicons)
     if config.kind == "logistic":
-        return CandidateRoleLinker(featurizer=featurizer, C=config.C, class_weight=config.class_weight,
+        return CandidateRoleLinker(featurizer=featurizer, **_logistic_settings(config),
                                    threshold=config.threshold)
     return SequenceRoleLabeller(_tagger(config), featurizer)
 
@@ -87,6 +100,8 @@ class MotionExtractor:
         self.role_labeller = build_role_labeller(config.role_model, featurizer)
         self.alignment_: AlignmentReport | None = None
         self.search_results_: dict[str, list[dict]] = {}
+        self.domains_: list[str] = []
+        self.threshold_scores_: dict[float, float] = {}
 
     def _search(self, records: Sequence[Record], docs: Sequence[Doc], targets: GoldTargets) -> None:
         def trigger_f1(candidate: ModelConfig, train: list[int], test: list[int]) -> float:
@@ -108,17 +123,65 @@ class MotionExtractor:
         self.trigger_finder = build_trigger_finder(trigger_config, self.featurizer)
         self.role_labeller = build_role_labeller(role_config, self.featurizer)
 
-    def fit(self, records: Sequence[Record], docs: Sequence[Doc]) -> "MotionExtractor":
-        """Train both stages on annotated records (negatives included; unannotated ones refused)."""
+    def _features(self, docs: Sequence[Doc], domains: Sequence[str] | None) -> list[list[dict]]:
+        """Token features of each doc, computed once and shared by both stages (augmented when domains are given)."""
+        if domains is None:
+            return [self.featurizer.token_features(d) for d in docs]
+        return [self.featurizer.token_features(d, domain=domain) for d, domain in zip(docs, domains)]
+
+    def prediction_features(self, docs: Sequence[Doc]) -> list[list[dict]]:
+        """Token features as this model sees new text: the target's copies when trained with augmentation."""
+        return self._features(docs, [TARGET_DOMAIN] * len(docs) if self.domains_ else None)
+
+    def _tune_trigger_threshold(self, records: Sequence[Record], docs: Sequence[Doc], targets: GoldTargets,
+                                features: list[list[dict]], domains: Sequence[str] | None) -> None:
+        """Choose the trigger stage's decision threshold by pooled F1 on inner folds of the training docs.
+
+        Each inner fold trains a fresh trigger stage on the other docs (auxiliary
+        corpora included) and scores its held-out target docs at every
+        threshold of :data:`THRESHOLD_GRID`; the best pooled F1 wins (the
+        highest threshold among equals). The scores are kept in ``threshold_scores_``.
+        """
+        collected: list[tuple[list[dict[str, float]], set[tuple[int, int]]]] = []
+        for train, test in inner_folds(records):
+            test = [i for i in test if domains is None or domains[i] == TARGET_DOMAIN]
+            if not test or not train:
+                continue
+            finder = build_trigger_finder(self.config.trigger_model, self.featurizer)
+            finder.fit([docs[i] for i in train], [targets.triggers[i] for i in train], [features[i] for i in train])
+            distributions = finder.tagger.token_distributions([features[i] for i in test])
+            collected.extend((d, set(targets.triggers[i])) for d, i in zip(distributions, test))
+        if not collected:
+            return
+        scores = {}
+        for threshold in THRESHOLD_GRID:
+            predicted = [{s[:2] for s in marginal_spans(d, TRIGGER_LABEL, threshold)} for d, _ in collected]
+            scores[threshold] = round(f1_of_sets([g for _, g in collected], predicted), 6)
+        best = max(THRESHOLD_GRID, key=lambda t: (scores[t], t))
+        self.trigger_finder.decision_threshold = best
+        self.threshold_scores_ = scores
+
+    def fit(self, records: Sequence[Record], docs: Sequence[Doc], *,
+            domains: Sequence[str] | None = None) -> "MotionExtractor":
+        """Train both stages on annotated records (negatives included; unannotated ones refused).
+
+        ``domains`` (one per record: ``"target"`` or an auxiliary corpus's name)
+        switches on feature augmentation; predictions then use the target's copies.
+        """
         unannotated = [r.id for r in records if not r.is_annotated]
         if unannotated:
             raise ConfigError(f"{len(unannotated)} training record(s) carry no annotation, e.g. {unannotated[:3]}",
                               "train on annotated records only (records with an 'events' list)")
         targets = gold_targets(records, docs)
         self.alignment_ = targets.alignment
-        if self.config.trigger_model.search or self.config.role_model.search:
+        if self.config.trigger_model.grid or self.config.role_model.grid:
             self._search(records, docs, targets)
-        features = [self.featurizer.token_features(d) for d in docs]  # computed once, shared by both stages
+        if domains is not None and len(domains) != len(records):
+            raise ConfigError(f"{len(domains)} domain names for {len(records)} records", "give one domain per record")
+        self.domains_ = sorted(set(domains)) if domains is not None else []
+        features = self._features(docs, domains)
+        if self.config.trigger_model.tune_threshold and isinstance(self.trigger_finder, SequenceTriggerFinder):
+            self._tune_trigger_threshold(records, docs, targets, features, domains)
         self.trigger_finder.fit(docs, targets.triggers, features)
         with_triggers = [i for i, ts in enumerate(targets.triggers) if ts]
         self.role_labeller.fit([docs[i] for i in with_triggers], [targets.triggers[i] for i in with_triggers],
@@ -127,7 +190,7 @@ class MotionExtractor:
 
     def predict(self, records: Sequence[Record], docs: Sequence[Doc], *, gold_triggers: bool = False) -> list[Record]:
         """Records carrying predicted events with confidences (``gold_triggers``: label roles of the gold triggers)."""
-        features = [self.featurizer.token_features(d) for d in docs]  # computed once, shared by both stages
+        features = self.prediction_features(docs)
         if gold_triggers:
             triggers = [[(f, e, 1.0) for f, e in ts] for ts in gold_targets(records, docs).triggers]
         else:

@@ -16,9 +16,7 @@ from __future__ import annotations
 import hashlib
 import io
 import json
-import os
 import platform
-import tempfile
 import warnings
 from dataclasses import dataclass
 from importlib import metadata as importlib_metadata
@@ -28,6 +26,7 @@ from typing import Any
 import joblib
 
 from trainer.errors import ModelFileError
+from trainer.outputs import output_lock, write_bytes
 
 MAGIC = b"ITINERANT-MODEL"
 FORMAT_VERSION = 1
@@ -50,20 +49,6 @@ def digest_path(path: Path) -> Path:
     return path.with_name(path.name + DIGEST_SUFFIX)
 
 
-def _atomic_write(path: Path, data: bytes) -> None:
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
-    try:
-        with os.fdopen(fd, "wb") as out:
-            out.write(data)
-            out.flush()
-            os.fsync(out.fileno())
-        os.replace(tmp, path)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
-
-
 def save_model(model: Any, path: Path | str, metadata: dict[str, Any]) -> dict[str, Any]:
     """Write a model file and its digest atomically; return the metadata as written."""
     path = Path(path)
@@ -72,8 +57,14 @@ def save_model(model: Any, path: Path | str, metadata: dict[str, Any]) -> dict[s
     meta = {"format_version": FORMAT_VERSION, "versions": library_versions(), **metadata,
             "payload_bytes": payload.getbuffer().nbytes}
     data = MAGIC + b" %d\n" % FORMAT_VERSION + json.dumps(meta, sort_keys=True).encode("utf-8") + b"\n" + payload.getvalue()
-    _atomic_write(path, data)
-    _atomic_write(digest_path(path), f"{hashlib.sha256(data).hexdigest()}  {path.name}\n".encode("ascii"))
+    new = hashlib.sha256(data).hexdigest()
+    with output_lock(path):
+        # The digest file names both the file in place and the new one while the model is replaced, so a
+        # kill between the two renames still leaves a model that matches its digest; then only the new one.
+        before = [hashlib.sha256(path.read_bytes()).hexdigest()] if path.is_file() else []
+        write_bytes(digest_path(path), "".join(f"{h}  {path.name}\n" for h in [new, *before]).encode("ascii"))
+        write_bytes(path, data)
+        write_bytes(digest_path(path), f"{new}  {path.name}\n".encode("ascii"))
     return meta
 
 
@@ -84,17 +75,30 @@ class LoadedModel:
 
 
 def _verified_bytes(path: Path) -> bytes:
+    if path.is_dir():
+        raise ModelFileError(f"{path}: is a folder, not a model file", "name the .itin file written by `itinerant fit`")
     try:
         data = path.read_bytes()
     except FileNotFoundError:
         raise ModelFileError(f"{path}: no such model file", "train one with `itinerant fit`") from None
+    except OSError as exc:
+        raise ModelFileError(f"{path}: cannot read the model file ({exc.strerror})", "check its permissions") from None
     try:
-        expected = digest_path(path).read_text(encoding="ascii").split()[0]
-    except (FileNotFoundError, IndexError, UnicodeDecodeError):
+        lines = [line.split() for line in digest_path(path).read_text(encoding="ascii").splitlines() if line.strip()]
+        listed = {digest: named for digest, named in lines}
+    except (OSError, ValueError, UnicodeDecodeError):
         raise ModelFileError(f"{path}: no readable digest file {digest_path(path).name} beside it",
                              "model files are pickles: only load files written by `itinerant fit` with their digest") from None
+    if not listed:
+        raise ModelFileError(f"{path}: the digest file {digest_path(path).name} is empty",
+                             "model files are pickles: only load files written by `itinerant fit` with their digest")
+    other = next((named for named in listed.values() if named.lstrip("*") != path.name), None)
+    if other is not None:
+        raise ModelFileError(f"{path}: the digest file {digest_path(path).name} is for another file ({other!r})",
+                             "keep each model file with its own digest file, as `itinerant fit` wrote them")
     actual = hashlib.sha256(data).hexdigest()
-    if actual != expected:
+    expected = next(iter(listed))
+    if actual not in listed:
         raise ModelFileError(
             f"{path}: SHA-256 digest mismatch (file {actual[:12]}..., expected {expected[:12]}...): "
             "the file was changed, truncated or replaced after it was written",
@@ -129,4 +133,9 @@ def load_model(path: Path | str) -> LoadedModel:
     if differing:
         listed = ", ".join(f"{k} {old} -> {new}" for k, (old, new) in sorted(differing.items()))
         warnings.warn(f"{path}: written with other library versions ({listed}); predictions may differ", stacklevel=2)
-    return LoadedModel(model=joblib.load(io.BytesIO(payload)), metadata=meta)
+    try:
+        model = joblib.load(io.BytesIO(payload))
+    except Exception as exc:  # a verified file whose payload is still not a pickle joblib can read
+        raise ModelFileError(f"{path}: the model payload cannot be read ({type(exc).__name__}: {exc})",
+                             "retrain with `itinerant fit`; the file is not a model this itinerant can load") from None
+    return LoadedModel(model=model, metadata=meta)

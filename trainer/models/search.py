@@ -1,6 +1,6 @@
 """Hyperparameter search for one stage, inside the training documents only.
 
-The grid comes from ``[trigger_model.search]`` / ``[role_model.search]`` in the
+The grid comes from ``[trigger_model.grid]`` / ``[role_model.grid]`` in the
 config (e.g. ``c1 = [0.01, 0.1]``); candidates run in parallel under joblib's
 active settings. Candidates are compared by exact-match F1
 on inner folds grouped by document, made from the training records alone, so
@@ -49,9 +49,9 @@ def search_stage(
     grid, the config is returned unchanged.
     """
     folds = inner_folds(records)
-    if not config.search or len(folds) < 2:
+    if not config.grid or len(folds) < 2:
         return config, []
-    grid = list(ParameterGrid(config.search))
+    grid = list(ParameterGrid(config.grid))
     # Candidates x inner folds run under the active joblib settings: serial by default, in parallel
     # inside `joblib.parallel_config(n_jobs=N)` (as `itinerant fit --jobs N` sets it). Order is kept.
     flat = Parallel()(delayed(evaluate)(replace(config, **params), train, test) for params in grid for train, test in folds)

@@ -41,6 +41,29 @@ def _spans_with_probabilities(tags: list[str], token_probs: list[dict[str, float
     return out
 
 
+def marginal_spans(distributions: list[dict[str, float]], label: str, threshold: float) -> list[SpanGuess]:
+    """Spans of one label decided token by token from tag probabilities, not from the best sequence.
+
+    A span starts at every token whose ``B-label`` probability reaches
+    ``threshold`` and goes on over following tokens whose ``I-label``
+    probability does; its probability is the mean of those. Below 0.5 this
+    finds spans the most likely sequence leaves out (recall for precision).
+    """
+    out, i = [], 0
+    begin, inside = f"B-{label}", f"I-{label}"
+    while i < len(distributions):
+        if distributions[i].get(begin, 0.0) < threshold:
+            i += 1
+            continue
+        end = i + 1
+        while end < len(distributions) and distributions[end].get(inside, 0.0) >= threshold:
+            end += 1
+        probs = [distributions[i].get(begin, 0.0)] + [distributions[k].get(inside, 0.0) for k in range(i + 1, end)]
+        out.append((i, end, label, float(np.mean(probs))))
+        i = end
+    return out
+
+
 class CRFTagger(BaseEstimator):
     """A linear-chain CRF (CRFsuite) over BIO tags; ``threshold`` drops spans below that probability."""
 

@@ -22,10 +22,11 @@ from sklearn.feature_extraction import DictVectorizer
 from sklearn.linear_model import LogisticRegression
 from spacy.tokens import Doc
 
-from trainer.features.extract import Featurizer
+from trainer.features.extract import DOMAIN_KEY, Featurizer, augment
 from trainer.features.groups import governing_preposition
+from trainer.features.rule_cues import rule_roles
 from trainer.models.candidates import candidate_phrases
-from trainer.models.sequence import CRFTagger, LogisticTagger
+from trainer.models.sequence import CRFTagger, LogisticTagger, marginal_spans
 from trainer.parsing.align import bio_tags
 
 TokenRange = tuple[int, int]
@@ -34,11 +35,18 @@ NONE_LABEL = "none"
 
 
 class SequenceTriggerFinder:
-    """Trigger finding as BIO tagging of tokens with a CRF or logistic tagger."""
+    """Trigger finding as BIO tagging of tokens with a CRF or logistic tagger.
 
-    def __init__(self, tagger: CRFTagger | LogisticTagger, featurizer: Featurizer) -> None:
+    ``decision_threshold`` ``None`` keeps the tagger's most likely tags; a
+    number decides token by token from the tag probabilities instead
+    (:func:`marginal_spans`), which the extractor can tune on inner folds.
+    """
+
+    def __init__(self, tagger: CRFTagger | LogisticTagger, featurizer: Featurizer,
+                 decision_threshold: float | None = None) -> None:
         self.tagger = tagger
         self.featurizer = featurizer
+        self.decision_threshold = decision_threshold
 
     def fit(self, docs: Sequence[Doc], triggers: Sequence[list[TokenRange]],
             features: Sequence[list[dict]] | None = None) -> "SequenceTriggerFinder":
@@ -50,7 +58,11 @@ class SequenceTriggerFinder:
     def predict(self, docs: Sequence[Doc], features: Sequence[list[dict]] | None = None) -> list[list[tuple[int, int, float]]]:
         """Trigger ranges with probabilities; ``features`` reuses token features already computed for ``docs``."""
         features = features if features is not None else [self.featurizer.token_features(d) for d in docs]
-        guesses = self.tagger.predict_spans(features)
+        if self.decision_threshold is None:
+            guesses = self.tagger.predict_spans(features)
+        else:
+            guesses = [marginal_spans(d, TRIGGER_LABEL, self.decision_threshold)
+                       for d in self.tagger.token_distributions(features)]
         return [[(first, end, p) for first, end, _, p in sentence] for sentence in guesses]
 
 
@@ -104,17 +116,25 @@ class CandidateRoleLinker(BaseEstimator):
 
     def _pairs(self, doc: Doc, trigger: TokenRange, base: list[dict]) -> tuple[list[TokenRange], list[dict]]:
         token_rel = self.featurizer.role_features(doc, trigger, base)
+        rule_spans = ({(r.first, r.end): r for r in rule_roles(doc, trigger, self.featurizer.lexicons)}
+                      if "rules" in self.featurizer.groups else None)
+        domain = base[0].get(DOMAIN_KEY) if base else None
         spans, rows = [], []
         for first, end, kind in candidate_phrases(doc, self.featurizer.gazetteer):
             if first < trigger[1] and trigger[0] < end:
                 continue
             root = doc[first:end].root
             row = {f"root:{k}": v for k, v in token_rel[root.i].items()}
-            row.update({
+            own = {
                 "kind": kind, "length": str(min(end - first, 5)), "first_lower": doc[first].lower_,
                 "gov_prep": governing_preposition(root) or "-", "before_trigger": end <= trigger[0],
                 "first_pos": doc[first].pos_, "path_kind": f"{row.get('root:t_path', '-')}|{kind}",
-            })
+            }
+            if rule_spans is not None:
+                rule = rule_spans.get((first, end))
+                own["rule_span"] = rule.role if rule else "-"
+                own["rule_span_cue"] = f"{rule.role}|{rule.cue}" if rule else "-"
+            row.update(augment(own, str(domain)) if domain is not None else own)
             spans.append((first, end))
             rows.append(row)
         return spans, rows

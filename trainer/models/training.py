@@ -3,23 +3,59 @@
 from __future__ import annotations
 
 import time
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Sequence
 
 from spacy.language import Language
 from spacy.tokens import Doc
 
-from trainer.config import ExperimentConfig
+from trainer.config import ExperimentConfig, ParserConfig
+from trainer.corpus.auxiliary import AuxiliaryCorpus, read_auxiliary
 from trainer.corpus.reader import fingerprint
 from trainer.corpus.records import Record
-from trainer.features.extract import Featurizer
+from trainer.features.extract import TARGET_DOMAIN, Featurizer
 from trainer.models.extractor import MotionExtractor
 from trainer.models.persist import load_model, save_model
 from trainer.parsing.align import AlignmentReport
 from trainer.parsing.parse import parse_records
 from trainer.parsing.pipeline import load_pipeline, pipeline_identity
-from trainer.errors import ModelFileError
+from trainer.errors import CorpusError, ModelFileError
+
+
+@dataclass
+class ParsedAuxiliary:
+    """An auxiliary corpus with one parse per record, ready to join training sets."""
+
+    corpus: AuxiliaryCorpus
+    docs: list[Doc]
+
+
+def parse_auxiliary(sources: Sequence[str], *, target: Sequence[Record], nlp: Language, parser: ParserConfig,
+                    roles: tuple[str, ...], scheduler: str | None = None) -> dict[str, ParsedAuxiliary]:
+    """Read and parse each auxiliary source once (through the parse cache), keyed by source."""
+    out = {}
+    for corpus in read_auxiliary(sorted(set(sources)), target=target, roles=roles):
+        docs, _ = parse_records(nlp, corpus.records, parser, scheduler=scheduler)
+        out[corpus.source] = ParsedAuxiliary(corpus, list(docs))
+    return out
+
+
+def with_auxiliary(records: Sequence[Record], docs: Sequence[Doc], config: ExperimentConfig,
+                   auxiliary: dict[str, ParsedAuxiliary]) -> tuple[list[Record], list[Doc], list[str] | None]:
+    """The training set of one config: the target's records plus its auxiliary corpora, and domains to augment by.
+
+    Domains are ``None`` unless the config asks for feature augmentation and names auxiliary corpora.
+    """
+    records, docs = list(records), list(docs)
+    domains = [TARGET_DOMAIN] * len(records)
+    for source in config.auxiliary.corpora:
+        parsed = auxiliary[source]
+        records += parsed.corpus.records
+        docs += parsed.docs
+        domains += [parsed.corpus.name] * len(parsed.docs)
+    augmenting = config.auxiliary.augment and bool(config.auxiliary.corpora)
+    return records, docs, domains if augmenting else None
 
 
 @dataclass
@@ -29,6 +65,7 @@ class TrainedExtractor:
     extractor: MotionExtractor
     config: ExperimentConfig
     pipeline_identity: str
+    auxiliary: list[dict[str, Any]] = field(default_factory=list)
 
     @property
     def roles(self) -> tuple[str, ...]:
@@ -50,14 +87,38 @@ def fit_extractor(
     *,
     nlp: Language | None = None,
     docs: Sequence[Doc] | None = None,
+    auxiliary: dict[str, ParsedAuxiliary] | None = None,
 ) -> TrainedExtractor:
-    """Parse (through the cache) and train on annotated records; pass ``docs`` to reuse parses."""
+    """Parse (through the cache) and train on annotated records plus the config's auxiliary corpora.
+
+    Pass ``docs`` to reuse parses, and ``auxiliary`` (from :func:`parse_auxiliary`) to reuse parsed auxiliary corpora.
+    """
+    require_training_data(records, config)
     nlp = nlp or parser_for(config)
     if docs is None:
         docs, _ = parse_records(nlp, records, config.parser)
+    if auxiliary is None:
+        auxiliary = parse_auxiliary(config.auxiliary.corpora, target=records, nlp=nlp, parser=config.parser,
+                                    roles=config.roles)
+    train, train_docs, domains = with_auxiliary(records, docs, config, auxiliary)
     featurizer = Featurizer.from_config(config.features, nlp)
-    extractor = MotionExtractor(config, featurizer).fit(records, docs)
-    return TrainedExtractor(extractor=extractor, config=config, pipeline_identity=pipeline_identity(nlp))
+    extractor = MotionExtractor(config, featurizer).fit(train, train_docs, domains=domains)
+    return TrainedExtractor(extractor=extractor, config=config, pipeline_identity=pipeline_identity(nlp),
+                            auxiliary=[auxiliary[s].corpus.to_dict() for s in config.auxiliary.corpora])
+
+
+def require_training_data(records: Sequence[Record], config: ExperimentConfig) -> None:
+    """Refuse to train on no annotated record, or (for a learned model) on records without any event."""
+    annotated = [r for r in records if r.is_annotated]
+    if not annotated:
+        raise CorpusError("no annotated record to train on"
+                          + (f" (none of the {len(records)} record(s) has an \"events\" list)" if records else ""),
+                          "train on annotated records; unannotated text is for `itinerant extract` or `suggest`")
+    learned = {config.trigger_model.kind, config.role_model.kind} - {"rules"}
+    if learned and not any(r.events for r in annotated):
+        raise CorpusError(f"the {len(annotated)} annotated record(s) hold no motion event, so a "
+                          f"{'/'.join(sorted(learned))} model has nothing to learn from",
+                          "add records with events, or use the rule baseline (kind = \"rules\")")
 
 
 def save_extractor(trained: TrainedExtractor, path: Path | str, *, records: Sequence[Record],
@@ -74,6 +135,7 @@ def save_extractor(trained: TrainedExtractor, path: Path | str, *, records: Sequ
             "docs": len({r.doc for r in records}),
             "events": sum(len(r.events or ()) for r in records),
         },
+        "auxiliary_corpora": trained.auxiliary,
         "training_seconds": round(training_seconds, 2),
         "created": time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime()),
     }

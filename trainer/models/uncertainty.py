@@ -136,7 +136,7 @@ def _trigger_decisions(trained: TrainedExtractor, docs: Sequence[Doc]) -> list[D
             "rule models have no uncertainty (they give no probabilities)",
             "suggest with a trained model: [trigger_model] kind = \"crf\" or \"logistic\"",
         )
-    X = [finder.featurizer.token_features(doc) for doc in docs]  # the finder's own feature path
+    X = trained.extractor.prediction_features(docs)  # the extractor's own feature path
     return _tagger_decisions(finder.tagger, X, "trigger")
 
 

@@ -26,6 +26,8 @@ COMPONENTS_BY_GROUP: dict[str, tuple[str, ...]] = {
     "syntax": ("tok2vec", "parser", "tagger", "attribute_ruler", "lemmatizer"),
     "trigger_relative": ("tok2vec", "parser", "tagger", "attribute_ruler", "lemmatizer"),
     "lexicon": ("tok2vec", "tagger", "attribute_ruler", "lemmatizer"),
+    "rules": ("tok2vec", "parser", "tagger", "attribute_ruler", "lemmatizer"),
+    "wordnet": ("tok2vec", "parser", "tagger", "attribute_ruler", "lemmatizer"),
 }
 # Candidate phrases, sentence splitting and lemmas need these whatever the groups.
 ALWAYS_NEEDED = ("tok2vec", "tagger", "parser", "attribute_ruler", "lemmatizer")

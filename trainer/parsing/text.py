@@ -21,6 +21,7 @@ from spacy.language import Language
 from spacy.tokens import Doc
 
 from trainer.corpus.records import Record
+from trainer.errors import UnreadableInputError
 
 
 def read_text_file(path: Path | str) -> str:
@@ -75,6 +76,11 @@ def sentence_records(
 
     def texts() -> Iterator[str]:
         for offset, paragraph in paragraph_items:
+            if len(paragraph) > nlp.max_length:
+                raise UnreadableInputError(
+                    f"{source}: the paragraph at character {offset} is {len(paragraph):,} characters long, "
+                    f"more than the parser takes ({nlp.max_length:,})",
+                    "break it into shorter paragraphs with blank lines")
             pending.append(offset)
             yield paragraph
 

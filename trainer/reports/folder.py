@@ -11,6 +11,7 @@ from trainer.evaluation.summary import RunSummary
 from trainer.reports.html import html_report
 from trainer.reports.json_report import dump_json, report_dict, run_info
 from trainer.reports.markdown import markdown_summary
+from trainer.outputs import output_lock, write_text
 
 REPORT_JSON = "report.json"
 RUN_INFO_JSON = "run-info.json"
@@ -22,17 +23,18 @@ def write_report_folder(
     folder: Path, run: CrossvalRun, summary: RunSummary, *, corpus_files: Sequence[str], seconds: float,
     learning_curve: dict[str, Any] | None = None,
 ) -> dict[str, Any]:
-    """Write the report folder and return the report data."""
+    """Write the report folder and return the report data (under the folder's lock, so two runs never mix)."""
     folder.mkdir(parents=True, exist_ok=True)
     report = report_dict(run, summary, corpus_files=corpus_files, learning_curve=learning_curve)
     predictions = {}
-    for system in run.systems:
-        predicted = system.predictions()
-        predictions[system.name] = predicted
-        write_jsonl(predicted, folder / "predictions" / f"{system.name}.jsonl")
-        write_jsonl(system.predictions(gold_triggers=True), folder / "predictions" / f"{system.name}.gold-triggers.jsonl")
-    dump_json(report, folder / REPORT_JSON)
-    dump_json(run_info(run, summary, seconds), folder / RUN_INFO_JSON)
-    (folder / SUMMARY_MD).write_text(markdown_summary(report), encoding="utf-8")
-    (folder / REPORT_HTML).write_text(html_report(report, run.records, predictions), encoding="utf-8")
+    with output_lock(folder):
+        for system in run.systems:
+            predicted = system.predictions()
+            predictions[system.name] = predicted
+            write_jsonl(predicted, folder / "predictions" / f"{system.name}.jsonl")
+            write_jsonl(system.predictions(gold_triggers=True), folder / "predictions" / f"{system.name}.gold-triggers.jsonl")
+        dump_json(report, folder / REPORT_JSON)
+        dump_json(run_info(run, summary, seconds), folder / RUN_INFO_JSON)
+        write_text(folder / SUMMARY_MD, markdown_summary(report))
+        write_text(folder / REPORT_HTML, html_report(report, run.records, predictions))
     return report

@@ -36,9 +36,12 @@ TRIGGER = "trigger"
 NONE = "none"
 SIGNIFICANT = 0.05
 
-# Background colours of role marks; roles beyond these take EXTRA_COLOURS in report order.
-ROLE_COLOURS = {"mover": "#ffd8a8", "source": "#a5d8ff", "path": "#b2f2bb", "destination": "#eebefa"}
-EXTRA_COLOURS = ("#ffec99", "#ffc9c9", "#99e9f2", "#d0bfff", "#c0eb75", "#fcc2d7")
+# Background colours of role marks; roles beyond these take EXTRA_COLOURS in report order. Our own tints
+# (mixed with white) of the Okabe-Ito colour-universal-design hues, chosen so the four stay apart under
+# simulated deuteranomaly, protanomaly and tritanomaly and black text on them keeps a contrast above 9:1
+# (tests/reports/test_html.py measures both).
+ROLE_COLOURS = {"mover": "#f8e2b2", "source": "#b3ddf5", "path": "#66c5ab", "destination": "#e69e66"}
+EXTRA_COLOURS = ("#f6ef9e", "#e8c3d7", "#b3d5e8", "#d9d9d9", "#c6e8de", "#f2cfb3")
 
 KIND_NOTES = {
     "correct": "same trigger, role and argument",
@@ -50,7 +53,7 @@ KIND_NOTES = {
 }
 
 CSS = """
-:root { --ink: #212529; --muted: #6c757d; --rule: #dee2e6; --band: #f8f9fa; --good: #2f9e44; --bad: #e03131; }
+:root { --ink: #23262a; --muted: #62676e; --rule: #d7dbe0; --band: #f4f6f8; --good: #0072b2; --bad: #c85a00; }
 * { box-sizing: border-box; }
 body { font: 14px/1.45 system-ui, -apple-system, "Segoe UI", Roboto, "Helvetica Neue", Arial, sans-serif;
        color: var(--ink); margin: 0; background: #fff; }
@@ -69,13 +72,13 @@ dl.facts dd { margin: 0; }
 code { font-size: .92em; background: var(--band); padding: 0 .2em; border-radius: 3px; }
 table { border-collapse: collapse; margin: .4rem 0 .8rem; font-variant-numeric: tabular-nums; }
 th, td { padding: .22rem .6rem; border-bottom: 1px solid var(--rule); text-align: left; vertical-align: top; }
-thead th { border-bottom: 2px solid #adb5bd; background: var(--band); font-weight: 600; }
+thead th { border-bottom: 2px solid #b4bac1; background: var(--band); font-weight: 600; }
 td.num, th.num { text-align: right; white-space: nowrap; }
-tr.pooled td, tr.pooled th { background: #fbfbfc; }
-tr.first-pooled td, tr.first-pooled th { border-top: 2px solid #adb5bd; }
-td.diag { font-weight: 700; background: #ebfbee; }
-td.off { background: #fff5f5; }
-td.zero { color: #ced4da; }
+tr.pooled td, tr.pooled th { background: #fafbfc; }
+tr.first-pooled td, tr.first-pooled th { border-top: 2px solid #b4bac1; }
+td.diag { font-weight: 700; background: #e3eff7; }
+td.off { background: #fbede3; }
+td.zero { color: #c3c8ce; }
 td.significant { font-weight: 700; }
 .tables { display: flex; flex-wrap: wrap; gap: 0 2rem; align-items: flex-start; }
 .tables h3 { font-size: .98rem; }
@@ -85,7 +88,7 @@ figcaption { color: var(--muted); font-size: .9em; }
 section.config { border-left: 4px solid var(--rule); padding-left: 1rem; margin-top: 1.6rem; }
 table.examples td.text { max-width: 34rem; }
 mark { color: inherit; padding: 0 1px; border-radius: 2px; }
-mark.trigger { font-weight: 700; background: #dee2e6; text-decoration: underline 2px; text-underline-offset: 3px; }
+mark.trigger { font-weight: 700; background: #d7dbe0; text-decoration: underline 2px; text-underline-offset: 3px; }
 mark.match { outline: 2px solid var(--good); outline-offset: -1px; }
 mark.nomatch { outline: 2px dashed var(--bad); outline-offset: -1px; }
 mark.missed { background: none; outline: 2px dotted var(--bad); outline-offset: -1px; }

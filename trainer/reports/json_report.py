@@ -19,6 +19,7 @@ from trainer.corpus.reader import fingerprint
 from trainer.evaluation.crossval import CrossvalRun
 from trainer.evaluation.summary import RunSummary, SystemSummary
 from trainer.models.persist import library_versions
+from trainer.outputs import write_text
 
 SCHEMA = "itinerant.evaluation-report"
 SCHEMA_VERSION = 1
@@ -93,4 +94,4 @@ def run_info(run: CrossvalRun, summary: RunSummary, seconds: float) -> dict[str,
 
 def dump_json(data: dict[str, Any], path: Path) -> None:
     """Write JSON deterministically: fixed indentation, UTF-8, trailing newline."""
-    path.write_text(json.dumps(data, indent=2, ensure_ascii=False) + "\n", encoding="utf-8")
+    write_text(path, json.dumps(data, indent=2, ensure_ascii=False) + "\n")

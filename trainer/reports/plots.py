@@ -30,9 +30,11 @@ CURVE_PANEL_SIZE = (3.4, 2.7)  # inches per panel
 CURVE_COLUMNS = 3
 PNG_METADATA: dict[str, str | None] = {"Software": None}
 
-# One colour per config, in report order (matplotlib's tab10, written out so a style change cannot move them).
-CONFIG_COLOURS = ("#1f77b4", "#ff7f0e", "#2ca02c", "#d62728", "#9467bd",
-                  "#8c564b", "#e377c2", "#7f7f7f", "#bcbd22", "#17becf")
+# One colour per config, in report order, written out so a style change cannot move them: the Okabe-Ito
+# colour-universal-design hues (a published colour-blind-safe set; yellow left out, too pale for lines),
+# then greys and a dark olive. Each config also gets its own marker, so no line is told apart by colour alone.
+CONFIG_COLOURS = ("#0072b2", "#e69f00", "#009e73", "#d55e00", "#cc79a7",
+                  "#56b4e9", "#000000", "#7a7a7a", "#6b6b2e", "#b0b0b0")
 MARKERS = ("o", "s", "D", "^", "v", "P", "X", "<", ">", "*")
 
 STYLE: dict[str, Any] = {

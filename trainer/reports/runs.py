@@ -12,10 +12,10 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, Sequence
 
-from trainer.config import ExperimentConfig, load_config
+from trainer.config import ExperimentConfig, add_auxiliary, load_config
 from trainer.corpus.reader import Corpus, expand_paths, fingerprint, read_corpus
 from trainer.corpus.records import Record
-from trainer.errors import ConfigError, CorpusError
+from trainer.errors import ConfigError, CorpusError, UnreadableInputError
 from trainer.evaluation.bootstrap import bootstrap_f1s
 from trainer.evaluation.crossval import Progress, run_crossval
 from trainer.evaluation.curve import learning_curve
@@ -25,6 +25,7 @@ from trainer.evaluation.folds import FoldPlan, fixed_split, grouped_kfold, leave
 from trainer.evaluation.scoring import count_corpus
 from trainer.evaluation.significance import compare_f1s
 from trainer.evaluation.summary import EvaluationSettings, summarise
+from trainer.outputs import check_output
 from trainer.reports.folder import REPORT_JSON, write_report_folder
 from trainer.reports.json_report import dump_json, library_versions
 
@@ -57,9 +58,11 @@ def plan_folds(records: Sequence[Record], options: FoldOptions) -> list[FoldPlan
 
 
 def load_inputs(corpus_paths: Sequence[Path], config_paths: Sequence[Path], *, test_paths: Sequence[Path] = (),
-                skip_bad: bool = False) -> tuple[list[ExperimentConfig], Corpus, list[str]]:
-    """Configs (defaults when none), the corpus (plus held-out test files), and the doc names of the test files."""
-    configs = [load_config(p) for p in config_paths] or [load_config(None)]
+                skip_bad: bool = False, auxiliary: Sequence[str] = (),
+                augment: bool | None = None) -> tuple[list[ExperimentConfig], Corpus, list[str]]:
+    """Configs (defaults when none; ``auxiliary`` corpora added to each), the corpus (plus held-out test files),
+    and the doc names of the test files."""
+    configs = [add_auxiliary(load_config(p), auxiliary, augment) for p in config_paths or [None]]
     roles = configs[0].roles
     if any(c.roles != roles for c in configs):
         raise ConfigError("configs use different role inventories", "compare configs with the same [corpus] roles")
@@ -80,11 +83,16 @@ def crossval_report(
     corpus_paths: Sequence[Path], config_paths: Sequence[Path], folder: Path, *, fold_options: FoldOptions | None = None,
     settings: EvaluationSettings | None = None, test_paths: Sequence[Path] = (), jobs: int = 1,
     scheduler: str | None = None, curve_shares: Sequence[float] = (), skip_bad: bool = False,
-    progress: Progress | None = None,
+    progress: Progress | None = None, auxiliary: Sequence[str] = (), augment: bool | None = None,
 ) -> dict[str, Any]:
-    """Cross-validate every config on the same folds and write the report folder."""
+    """Cross-validate every config on the same folds and write the report folder.
+
+    ``auxiliary`` corpora (and ``augment``) are added to every config's own ``[auxiliary]`` settings.
+    """
+    check_output(folder, inputs=[*corpus_paths, *config_paths, *test_paths], folder=True, what="report folder")
     started = time.perf_counter()
-    configs, corpus, test_docs = load_inputs(corpus_paths, config_paths, test_paths=test_paths, skip_bad=skip_bad)
+    configs, corpus, test_docs = load_inputs(corpus_paths, config_paths, test_paths=test_paths, skip_bad=skip_bad,
+                                             auxiliary=auxiliary, augment=augment)
     evaluation = configs[0].evaluation
     options = fold_options or FoldOptions(folds=evaluation.folds, repeats=evaluation.repeats, seed=evaluation.seed)
     if test_docs:
@@ -110,6 +118,8 @@ def crossval_report(
 def score_report(gold_path: Path, pred_path: Path, *, roles: Sequence[str], settings: EvaluationSettings,
                  folder: Path | None = None) -> dict[str, Any]:
     """Score any system's predictions (canonical JSONL) against gold with the same scorer as cross-validation."""
+    if folder is not None:
+        check_output(folder, inputs=[gold_path, pred_path], folder=True, what="score folder")
     gold = read_corpus([gold_path], roles=tuple(roles)).records
     predicted = read_corpus([pred_path], roles=tuple(roles)).records
     counts = count_corpus(gold, predicted, roles=roles, mode=settings.mode)
@@ -135,9 +145,15 @@ def score_report(gold_path: Path, pred_path: Path, *, roles: Sequence[str], sett
 
 def _saved_run(folder: Path) -> dict[str, Any]:
     try:
-        return json.loads((folder / REPORT_JSON).read_text(encoding="utf-8"))
-    except FileNotFoundError:
-        raise CorpusError(f"{folder}: no {REPORT_JSON} here", "name a folder written by `itinerant crossval`") from None
+        data = json.loads((folder / REPORT_JSON).read_text(encoding="utf-8"))
+    except (FileNotFoundError, NotADirectoryError):
+        raise UnreadableInputError(f"{folder}: no {REPORT_JSON} here", "name a folder written by `itinerant crossval`") from None
+    except (OSError, ValueError, RecursionError) as exc:
+        raise UnreadableInputError(f"{folder / REPORT_JSON}: cannot be read as a report ({exc})",
+                                   "rerun the cross-validation") from None
+    if not isinstance(data, dict):
+        raise UnreadableInputError(f"{folder / REPORT_JSON}: not a report (expected a JSON object)", "rerun the cross-validation")
+    return data
 
 
 def contrast_runs(folder_a: Path, folder_b: Path, *, system_a: str | None = None, system_b: str | None = None,

@@ -23,7 +23,8 @@ from trainer.corpus import jsonl
 from trainer.corpus.convert.inline import read_inline
 from trainer.corpus.reader import read_corpus
 from trainer.corpus.records import DEFAULT_ROLES, Record
-from trainer.errors import ItinerantError
+from trainer.errors import CorpusError, ItinerantError, UnreadableInputError
+from trainer.outputs import check_output
 
 
 @dataclass
@@ -70,7 +71,10 @@ def _has_confidence(record: Record) -> bool:
 
 def _read_jsonl(path: Path, *, roles: tuple[str, ...] = DEFAULT_ROLES) -> Conversion:
     """Canonical JSONL, validated by the corpus reader (which refuses files with errors)."""
-    return Conversion(records=read_corpus([path], roles=roles).records)
+    try:
+        return Conversion(records=read_corpus([path], roles=roles).records)
+    except CorpusError as exc:  # the reader's hint offers --skip-bad, which convert does not have
+        raise CorpusError(exc.cause, "fix them first (`itinerant check` lists them all); convert copies whole files only") from None
 
 
 def _write_jsonl(records: Iterable[Record], path: Path, *, roles: tuple[str, ...] = DEFAULT_ROLES) -> list[str]:
@@ -113,28 +117,52 @@ WRITERS: dict[str, Callable[..., list[str]]] = {
 
 _Converter = TypeVar("_Converter")
 
+# The format a file extension stands for, when no format is named.
+EXTENSIONS: dict[str, str] = {
+    ".jsonl": "jsonl",
+    ".csv": "table",
+    ".tsv": "table",
+    ".cols": "columns",
+    ".bio": "columns",
+    ".conll": "columns",
+    ".xml": "isospace",
+    ".txt": "inline",
+}
 
-def _pick(table: dict[str, _Converter], name: str, kind: str) -> _Converter:
+
+def format_for(path: Path, given: str | None, table: dict[str, _Converter], kind: str) -> str:
+    """The format named, or the one the extension of ``path`` stands for; refused when neither is usable."""
+    if kind == "input" and Path(path).is_dir():
+        raise UnreadableInputError(f"{path}: is a folder, not a file", "convert one file at a time")
+    name = given or EXTENSIONS.get(Path(path).suffix.lower())
+    option = "--input-format" if kind == "input" else "--output-format"
+    if name is None:
+        known = ", ".join(f"{ext} ({fmt})" for ext, fmt in EXTENSIONS.items() if fmt in table)
+        raise UnknownFormatError(f"{path}: cannot tell the {kind} format from the extension {Path(path).suffix or '(none)'!r}",
+                                 f"use one of the extensions {known}, or name the format with {option}")
     if name not in table:
-        raise UnknownFormatError(f"unknown {kind} format {name!r}", f"use one of: {', '.join(table)}")
-    return table[name]
+        raise UnknownFormatError(f"{path}: {name!r} is not an {kind} format" + ("" if given else " (from its extension)"),
+                                 f"{option} takes one of: {', '.join(table)}")
+    return name
 
 
 def convert_file(
     source: Path,
     target: Path,
     *,
-    from_format: str,
-    to_format: str,
+    from_format: str | None = None,
+    to_format: str | None = None,
     roles: tuple[str, ...] = DEFAULT_ROLES,
 ) -> Conversion:
     """Read ``source`` in one format and write ``target`` in another.
 
+    A format left out is inferred from the file's extension (see :data:`EXTENSIONS`).
     Returns the records read and the losses of both steps (reading first).
-    Both format names are checked before anything is read or written.
+    Both formats and the target are checked before anything is read or written.
     """
-    reader = _pick(READERS, from_format, "input")
-    writer = _pick(WRITERS, to_format, "output")
+    check_output(target, inputs=[source], what="converted file")
+    reader = READERS[format_for(source, from_format, READERS, "input")]
+    writer = WRITERS[format_for(target, to_format, WRITERS, "output")]
     conversion = reader(Path(source), roles=roles)
     written = writer(conversion.records, Path(target), roles=roles)
     return Conversion(records=conversion.records, losses=conversion.losses + written)
@@ -144,8 +172,10 @@ __all__ = [
     "READERS",
     "WRITERS",
     "Conversion",
+    "EXTENSIONS",
     "UnknownFormatError",
     "convert_file",
+    "format_for",
     "read_columns",
     "read_isospace",
     "read_table",

@@ -41,7 +41,9 @@ from typing import Any, Iterable
 
 from trainer.corpus.convert import Conversion, writable
 from trainer.corpus.records import DEFAULT_ROLES, Event, Offsets, Record, RoleSpan
+from trainer.corpus.validate import StrictJSONError, record_problems, strict_loads
 from trainer.errors import CorpusError, UnreadableInputError
+from trainer.outputs import write_text
 
 TRIGGER_LABEL = "V"
 OUTSIDE = "O"
@@ -79,9 +81,7 @@ def write_columns(records: Iterable[Record], path: Path, *, roles: tuple[str, ..
         record, lost = writable(record, roles, keeps_confidence=False)
         losses.extend(lost)
         blocks.append("\n".join(_block(record, losses)) + "\n")
-    path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    path.write_text("\n".join(blocks), encoding="utf-8", newline="\n")
+    write_text(path, "\n".join(blocks))
     return losses
 
 
@@ -240,7 +240,18 @@ def read_columns(path: Path, *, roles: tuple[str, ...] = DEFAULT_ROLES) -> Conve
     """
     path = Path(path)
     reader = _BlockReader(path, roles)
-    records = [reader.record(first_line, lines) for first_line, lines in _blocks(path)]
+    records, first_seen = [], {}
+    for first_line, lines in _blocks(path):
+        record = reader.record(first_line, lines)
+        if record.id in first_seen:
+            raise reader.fail(first_line, f"duplicate id {record.id!r} (first at line {first_seen[record.id]})",
+                              "ids must be unique in the corpus; rename one of the records")
+        first_seen[record.id] = first_line
+        problems = record_problems(record, str(path), first_line, roles)
+        if problems:
+            raise reader.fail(first_line, f"record {record.id!r}: " + "; ".join(f"{p.field}: {p.message}" for p in problems),
+                              "correct the record's comment lines or tokens")
+        records.append(record)
     return Conversion(records=records, losses=reader.losses)
 
 
@@ -407,9 +418,9 @@ class _BlockReader:
 
     def meta(self, line: int, value: str) -> dict[str, Any]:
         try:
-            meta = json.loads(value)
-        except json.JSONDecodeError as exc:
-            raise self.fail(line, f"'# meta' is not valid JSON ({exc.msg})", "write it as one JSON object") from None
+            meta = strict_loads(value)
+        except StrictJSONError as exc:
+            raise self.fail(line, f"'# meta' is not clean JSON ({exc})", "write it as one JSON object") from None
         if not isinstance(meta, dict):
             raise self.fail(line, f"'# meta' is a JSON {type(meta).__name__}, not an object", "write it as one JSON object")
         return meta

@@ -19,7 +19,8 @@ from collections import defaultdict
 from pathlib import Path
 
 from trainer.corpus.records import DEFAULT_ROLES, Event, Record, RoleSpan
-from trainer.errors import CorpusError
+from trainer.corpus.validate import record_problems
+from trainer.errors import CorpusError, UnreadableInputError
 
 _SPAN = re.compile(r"\[([^\[\]|]+)\|([^\[\]|]+)\]")
 _LABEL = re.compile(r"^(T|[a-z_]+)(\d+)$")
@@ -74,7 +75,15 @@ def read_inline(path: Path, roles: tuple[str, ...] = DEFAULT_ROLES) -> list[Reco
     doc = path.stem
     counters: dict[str, int] = defaultdict(int)
     records = []
-    for number, raw in enumerate(path.read_text(encoding="utf-8-sig").splitlines(), start=1):
+    try:
+        content = path.read_text(encoding="utf-8-sig")
+    except FileNotFoundError:
+        raise UnreadableInputError(f"{path}: no such file", "check the path") from None
+    except IsADirectoryError:
+        raise UnreadableInputError(f"{path}: is a folder, not a file", "name a file of inline markup") from None
+    except UnicodeDecodeError:
+        raise UnreadableInputError(f"{path}: not UTF-8 text", "re-save the file as UTF-8") from None
+    for number, raw in enumerate(content.splitlines(), start=1):
         line = raw.strip()
         if not line:
             continue
@@ -84,9 +93,10 @@ def read_inline(path: Path, roles: tuple[str, ...] = DEFAULT_ROLES) -> list[Reco
                 doc = value.strip()
             continue
         counters[doc] += 1
-        records.append(
-            parse_inline(
-                line, record_id=f"{doc}-s{counters[doc]:03d}", doc=doc, roles=roles, where=f"{path}:{number}"
-            )
-        )
+        record = parse_inline(line, record_id=f"{doc}-s{counters[doc]:03d}", doc=doc, roles=roles, where=f"{path}:{number}")
+        problems = record_problems(record, str(path), number, roles)
+        if problems:
+            raise CorpusError(f"{path}:{number}: " + "; ".join(f"{p.field}: {p.message}" for p in problems),
+                              "correct the line's text or spans")
+        records.append(record)
     return records

@@ -138,6 +138,11 @@ def _parse(path: Path) -> tuple[str, ET.Element]:
         root = ET.parse(path).getroot()
     except FileNotFoundError:
         raise UnreadableInputError(f"{path}: no such file", "check the path") from None
+    except IsADirectoryError:
+        raise UnreadableInputError(f"{path}: is a folder, not a file", "name an ISO-Space XML file") from None
+    except LookupError as exc:  # the XML declaration names an encoding Python does not know
+        raise UnreadableInputError(f"{path}: the XML declaration names an unknown encoding ({exc})",
+                                   'write encoding="UTF-8" in the first line') from None
     except ET.ParseError as exc:
         line, column = exc.position
         raise UnreadableInputError(

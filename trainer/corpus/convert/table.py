@@ -23,7 +23,9 @@ import pandas as pd
 
 from trainer.corpus.convert import Conversion, UnknownFormatError, writable
 from trainer.corpus.records import DEFAULT_ROLES, Event, Offsets, Record, RoleSpan
+from trainer.corpus.validate import StrictJSONError, record_problems, strict_loads
 from trainer.errors import CorpusError, UnreadableInputError
+from trainer.outputs import write_text
 
 COLUMNS = (
     "id", "doc", "status", "event", "trigger_start", "trigger_end", "trigger_text",
@@ -64,8 +66,7 @@ def write_table(records: Iterable[Record], path: Path, *, roles: tuple[str, ...]
         losses.extend(lost)
         rows.extend(_rows(record))
     frame = pd.DataFrame(rows, columns=list(COLUMNS), dtype=str)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    frame.to_csv(path, sep=separator, index=False, lineterminator=LINE_END, encoding="utf-8")
+    write_text(path, frame.to_csv(sep=separator, index=False, lineterminator=LINE_END))
     return losses
 
 
@@ -103,6 +104,14 @@ def _row(*parts: dict[str, str]) -> dict[str, str]:
 
 
 # ---------------------------------------------------------------- reading
+
+EVENT_CELLS = ("event", *SPAN_COLUMNS["trigger"], "role", *SPAN_COLUMNS["role"])
+
+
+def _whole(cell: str) -> bool:
+    """A whole number written in ASCII digits (``str.isdigit`` also takes '²' and other scripts' digits)."""
+    return cell.isascii() and cell.isdigit()
+
 
 
 @dataclass(frozen=True)
@@ -197,15 +206,18 @@ class _TableReader:
             self.error(first, f"status {first['status']!r}; write {ANNOTATED!r} or {UNANNOTATED!r}")
         if len(self.errors) > errors_before:
             return None
-        return Record(id=first["id"], doc=first["doc"], text=first["text"], events=events, meta=meta)
+        record = Record(id=first["id"], doc=first["doc"], text=first["text"], events=events, meta=meta)
+        for problem in record_problems(record, str(self.path), first.number, self.roles):
+            self.error(first, f"{problem.field}: {problem.message}")
+        return None if len(self.errors) > errors_before else record
 
     def meta(self, row: _Row) -> dict[str, Any] | None:
         if not row["meta"]:
             return None
         try:
-            meta = json.loads(row["meta"])
-        except json.JSONDecodeError as exc:
-            self.error(row, f"meta is not valid JSON ({exc.msg})")
+            meta = strict_loads(row["meta"])
+        except StrictJSONError as exc:
+            self.error(row, f"meta is not clean JSON ({exc})")
             return None
         if not isinstance(meta, dict):
             self.error(row, f"meta is a JSON {type(meta).__name__}; write a JSON object or leave it empty")
@@ -213,8 +225,10 @@ class _TableReader:
 
     def no_events(self, rows: list[_Row]) -> None:
         for row in rows:
-            if row["event"] or row["role"]:
-                self.error(row, f"status {UNANNOTATED!r} but the row has an event; set status to {ANNOTATED!r}")
+            filled = [c for c in EVENT_CELLS if row[c]]
+            if filled:
+                self.error(row, f"status {UNANNOTATED!r} but column(s) {', '.join(filled)} hold an event; "
+                                f"set status to {ANNOTATED!r} or clear them")
 
     def events(self, rows: list[_Row], text: str) -> tuple[Event, ...]:
         """Events in order of their number; roles in row order."""
@@ -227,10 +241,12 @@ class _TableReader:
 
     def event_number(self, row: _Row) -> int | None:
         if not row["event"]:
-            if row["role"]:
-                self.error(row, "a role without an event number")
+            filled = [c for c in EVENT_CELLS if row[c]]
+            if filled:
+                self.error(row, f"column event is empty but column(s) {', '.join(filled)} are filled; "
+                                "give the event number or clear them")
             return None
-        if not row["event"].isdigit() or int(row["event"]) < 1:
+        if not _whole(row["event"]) or int(row["event"]) < 1:
             self.error(row, f"event {row['event']!r} is not a number from 1 up")
             return None
         return int(row["event"])
@@ -246,6 +262,10 @@ class _TableReader:
 
     def role(self, row: _Row, text: str) -> RoleSpan | None:
         if not row["role"]:
+            filled = [c for c in SPAN_COLUMNS["role"] if row[c]]
+            if filled:
+                self.error(row, f"column role is empty but column(s) {', '.join(filled)} hold a span; "
+                                "name the role or clear those cells")
             return None
         span = self.span(row, text, "role")
         if row["role"] not in self.roles:
@@ -258,7 +278,7 @@ class _TableReader:
         """The offsets of a trigger or role, checked against the text; a differing text cell is a loss, not an error."""
         start_column, end_column, text_column = SPAN_COLUMNS[kind]
         cells = (row[start_column], row[end_column])
-        if not all(c.isdigit() for c in cells):
+        if not all(_whole(c) for c in cells):
             self.error(row, f"{start_column}/{end_column} {cells[0]!r}/{cells[1]!r} are not whole numbers")
             return None
         start, end = int(cells[0]), int(cells[1])

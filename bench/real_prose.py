@@ -1,0 +1,150 @@
+"""Real-prose benchmark: do trained extractors beat the rules on real travel writing?
+
+Runs, in one process, on the real-prose evaluation corpus in
+``tests/external/real-prose/corpus/`` (six public-domain travel narratives,
+see its ``SOURCES.md``):
+
+1. leave one book out (each book held out in turn, the other five trained on):
+   role micro F1 in overlap and exact mode with 95% bootstrap intervals (by
+   doc), trigger F1, and role F1 given the gold triggers, for the rules,
+   the CRF and logistic configs, and the default config with and without the
+   packaged demo corpus as auxiliary corpus (and with feature augmentation);
+2. every config trained on the whole invented demo corpus
+   (``demo_annotations/train``) and applied to all real-prose sentences.
+
+All figures come from this one run; nothing is asserted here
+(``tests/external/test_real_prose.py`` asserts the headline comparison).
+
+    python bench/real_prose.py [--jobs 2] [--bootstrap 1000]
+"""
+
+from __future__ import annotations
+
+import argparse
+import time
+from dataclasses import dataclass, replace
+from pathlib import Path
+from typing import Sequence
+
+from trainer.config import AuxiliaryConfig, ExperimentConfig, load_config
+from trainer.corpus.reader import read_corpus
+from trainer.corpus.records import Record
+from trainer.evaluation.bootstrap import bootstrap_f1s
+from trainer.evaluation.crossval import run_crossval
+from trainer.evaluation.folds import leave_one_book_out
+from trainer.evaluation.scoring import count_corpus
+from trainer.evaluation.summary import fold_counts, pool_folds
+from trainer.models.training import fit_extractor, parser_for
+from trainer.parsing.parse import parse_records
+
+ROOT = Path(__file__).resolve().parents[1]
+REAL_PROSE = ROOT / "tests" / "external" / "real-prose" / "corpus"
+DEMO_TRAIN = ROOT / "demo_annotations" / "train"
+MODES = ("overlap", "exact")
+
+
+@dataclass
+class Row:
+    """One extractor's scores on the real-prose corpus in one setting."""
+
+    name: str
+    role_f1: dict[str, float]  # by mode
+    interval: dict[str, tuple[float, float]]  # by mode, role micro F1
+    trigger_f1: dict[str, float]
+    given_triggers_f1: dict[str, float]
+
+    def line(self) -> str:
+        parts = [f"{self.name:28}"]
+        for mode in MODES:
+            low, high = self.interval[mode]
+            parts.append(f"{self.role_f1[mode]:.3f} [{low:.3f}, {high:.3f}]")
+        parts.append(f"{self.trigger_f1['overlap']:.3f}")
+        parts.append(f"{self.given_triggers_f1['overlap']:.3f}" if self.given_triggers_f1 else "  -  ")
+        return " | ".join(parts)
+
+
+def configs(names: Sequence[str] = ("rules", "crf", "logistic", "default")) -> list[ExperimentConfig]:
+    """The packaged configs, plus the default without auxiliary corpus and with feature augmentation."""
+    loaded = {name: load_config(ROOT / "configs" / f"{name}.toml") for name in names}
+    out = [loaded[name] for name in names]
+    default = loaded.get("default")
+    if default is not None and default.auxiliary.corpora:
+        out.append(replace(default, name="default, no auxiliary", auxiliary=AuxiliaryConfig()))
+        out.append(replace(default, name="default, augmented",
+                           auxiliary=replace(default.auxiliary, augment=not default.auxiliary.augment)))
+    return out
+
+
+def real_prose_records() -> list[Record]:
+    return [r for r in read_corpus([REAL_PROSE]).records if r.is_annotated]
+
+
+def leave_one_book_out_rows(records: Sequence[Record], systems: Sequence[ExperimentConfig], *, jobs: int = 1,
+                            bootstrap: int = 1000, seed: int = 13) -> list[Row]:
+    """Leave-one-book-out scores of each config on the real-prose records."""
+    plan = leave_one_book_out([r.doc for r in records])
+    run = run_crossval(records, systems, [plan], jobs=jobs)
+    rows = []
+    for system in run.systems:
+        roles = system.config.roles
+        role_f1, interval, trigger_f1, given = {}, {}, {}, {}
+        for mode in MODES:
+            counts = pool_folds(system, fold_counts(run, system, roles=roles, mode=mode))
+            scores = counts.scores()
+            role_f1[mode], trigger_f1[mode] = scores.micro.f1, scores.trigger.f1
+            interval[mode] = bootstrap_f1s(counts.units(by="doc"), roles, samples=bootstrap, seed=seed)["micro"]
+            given[mode] = pool_folds(system, fold_counts(run, system, roles=roles, mode=mode,
+                                                         gold_triggers=True)).scores().micro.f1
+        rows.append(Row(system.name, role_f1, interval, trigger_f1, given))
+    return rows
+
+
+def demo_trained_rows(records: Sequence[Record], systems: Sequence[ExperimentConfig], *,
+                      bootstrap: int = 1000, seed: int = 13) -> list[Row]:
+    """Each config trained on the whole demo corpus, applied to every real-prose record."""
+    demo = [r for r in read_corpus([DEMO_TRAIN]).records if r.is_annotated]
+    nlp = parser_for(systems[0])
+    demo_docs, _ = parse_records(nlp, demo, systems[0].parser)
+    docs, _ = parse_records(nlp, records, systems[0].parser)
+    rows = []
+    for config in systems:
+        trained = fit_extractor(demo, config, nlp=nlp, docs=demo_docs)
+        predicted = trained.extractor.predict(records, docs)
+        role_f1, interval, trigger_f1 = {}, {}, {}
+        for mode in MODES:
+            counts = count_corpus(records, predicted, roles=config.roles, mode=mode)
+            role_f1[mode], trigger_f1[mode] = counts.scores().micro.f1, counts.scores().trigger.f1
+            interval[mode] = bootstrap_f1s(counts.units(by="doc"), config.roles, samples=bootstrap, seed=seed)["micro"]
+        rows.append(Row(config.name, role_f1, interval, trigger_f1, {}))
+    return rows
+
+
+HEADER = (f"{'extractor':28} | role F1 overlap [95% CI] | role F1 exact [95% CI]  | trigger F1 | "
+          "roles | gold triggers")
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.split("\n")[0])
+    parser.add_argument("--jobs", type=int, default=2, help="worker processes for the folds")
+    parser.add_argument("--bootstrap", type=int, default=1000, help="bootstrap samples per interval")
+    args = parser.parse_args()
+    records = real_prose_records()
+    books = sorted({r.doc.rsplit("-", 1)[0] for r in records})
+    print(f"real-prose corpus: {len(records)} sentences, {sum(1 for r in records if r.events)} with events, "
+          f"{len(books)} books ({', '.join(books)})")
+    systems = configs()
+    started = time.perf_counter()
+    print("\nLeave one book out (trained on five real books, plus any auxiliary corpus of the config):")
+    print(HEADER)
+    for row in leave_one_book_out_rows(records, systems, jobs=args.jobs, bootstrap=args.bootstrap):
+        print(row.line())
+    print("\nTrained on the whole demo corpus, applied to all real-prose sentences:")
+    print(HEADER)
+    for row in demo_trained_rows(records, [c for c in systems if c.auxiliary.corpora == [] or c.name == "default"],
+                                 bootstrap=args.bootstrap):
+        print(row.line())
+    print(f"\n{time.perf_counter() - started:.0f} s in all")
+
+
+if __name__ == "__main__":
+    main()

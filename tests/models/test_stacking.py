@@ -1,0 +1,83 @@
+"""Learning that starts from the rules, a trigger threshold tuned on inner folds, and auxiliary corpora."""
+
+from __future__ import annotations
+
+import pytest
+
+from trainer.config import add_auxiliary, config_from_dict
+from trainer.corpus.reader import read_corpus
+from trainer.evaluation.scoring import count_corpus
+from trainer.features.extract import DOMAIN_KEY
+from trainer.models.extractor import THRESHOLD_GRID, MotionExtractor
+from trainer.models.training import fit_extractor, parser_for
+from trainer.parsing.parse import parse_records
+
+pytestmark = pytest.mark.slow
+
+SIX = ["lexical", "tagging", "context", "syntax", "trigger_relative", "lexicon"]
+FEW_DOCS = ("amsel-pilgrim-1", "brannick-log-1")  # about 110 annotated sentences: a small first budget
+
+
+def _config(tmp, *, groups, tune=False, kind="crf"):
+    return config_from_dict({
+        "parser": {"cache_dir": str(tmp / "cache")},
+        "features": {"groups": groups},
+        "trigger_model": {"kind": kind, "iterations": 60, "tune_threshold": tune},
+        "role_model": {"kind": "crf", "iterations": 60},
+    })
+
+
+@pytest.fixture(scope="module")
+def demo(nlp, demo_train, demo_test, tmp_path_factory):
+    tmp = tmp_path_factory.mktemp("stacking")
+    config = _config(tmp, groups=SIX)
+    train = [r for r in read_corpus([demo_train]).records if r.doc in FEW_DOCS]
+    test = read_corpus([demo_test]).records
+    return {"tmp": tmp, "train": train, "train_docs": parse_records(nlp, train, config.parser)[0],
+            "test": test, "test_docs": parse_records(nlp, test, config.parser)[0]}
+
+
+def _scores(trained, demo):
+    predicted = trained.extractor.predict(demo["test"], demo["test_docs"])
+    return count_corpus(demo["test"], predicted, roles=trained.roles, mode="exact").scores()
+
+
+def test_rule_decisions_as_features_lift_a_model_trained_on_few_sentences(demo, nlp):
+    plain = fit_extractor(demo["train"], _config(demo["tmp"], groups=SIX), nlp=nlp, docs=demo["train_docs"])
+    stacked = fit_extractor(demo["train"], _config(demo["tmp"], groups=[*SIX, "rules"]), nlp=nlp,
+                            docs=demo["train_docs"])
+    plain_scores, stacked_scores = _scores(plain, demo), _scores(stacked, demo)
+    print(f"\nheld-back role F1 from {len(demo['train'])} sentences: without rule features "
+          f"{plain_scores.micro.f1:.3f}, with {stacked_scores.micro.f1:.3f}; trigger recall "
+          f"{plain_scores.trigger.recall:.3f} -> {stacked_scores.trigger.recall:.3f}")
+    assert stacked_scores.micro.f1 > plain_scores.micro.f1 + 0.02
+    assert stacked_scores.trigger.recall >= plain_scores.trigger.recall
+
+
+def test_the_trigger_threshold_is_chosen_on_inner_folds_of_the_training_docs(demo, nlp):
+    trained = fit_extractor(demo["train"], _config(demo["tmp"], groups=[*SIX, "rules"], tune=True, kind="logistic"),
+                            nlp=nlp, docs=demo["train_docs"])
+    extractor = trained.extractor
+    scores = extractor.threshold_scores_
+    assert sorted(scores) == sorted(THRESHOLD_GRID)
+    best = extractor.trigger_finder.decision_threshold
+    assert scores[best] == max(scores.values())
+    assert all(scores[t] < scores[best] for t in THRESHOLD_GRID if t > best)  # the highest of equals wins
+    again = fit_extractor(demo["train"], _config(demo["tmp"], groups=[*SIX, "rules"], tune=True, kind="logistic"),
+                          nlp=nlp, docs=demo["train_docs"])
+    assert again.extractor.threshold_scores_ == scores  # deterministic
+
+
+def test_auxiliary_corpora_join_training_with_their_own_domain_and_predictions_use_the_target_copies(demo, nlp):
+    config = add_auxiliary(_config(demo["tmp"], groups=["lexical", "lexicon"]), ["packaged:demo"], augment=True)
+    trained = fit_extractor(demo["train"], config, nlp=nlp, docs=demo["train_docs"])
+    (aux,) = trained.auxiliary
+    assert aux["name"] == "demo" and aux["left_out_shared_with_target"] == len(demo["train"])
+    assert aux["records"] == 656 - len(demo["train"])
+    extractor: MotionExtractor = trained.extractor
+    assert extractor.domains_ == ["demo", "target"]
+    features = extractor.prediction_features(demo["test_docs"][:1])
+    assert features[0][0][DOMAIN_KEY] == "target" and "target~lower" in features[0][0]
+    weights = extractor.trigger_finder.tagger.crf_.state_features_
+    assert any(name.startswith("demo~") for name, _ in weights)
+    assert any(name.startswith("target~") for name, _ in weights)

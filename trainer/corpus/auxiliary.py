@@ -1,0 +1,82 @@
+"""Auxiliary corpora: annotations of other books that join every training set and are never scored.
+
+A team starting a new book usually has annotations of other books (the demo
+corpus, an earlier project). Those records are added to the training records
+of every fold and of ``fit``; held-out folds stay the target corpus's own docs.
+A record of an auxiliary corpus whose doc or id also occurs in the target
+corpus is left out (and counted), so a corpus can never leak into its own
+evaluation, e.g. when the packaged demo corpus is both target and auxiliary.
+
+Sources are JSONL files or folders, or ``packaged:<name>`` for a corpus that
+ships inside itinerant (:data:`PACKAGED_CORPORA`).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from importlib import resources
+from pathlib import Path
+from typing import Any, Sequence
+
+from trainer.corpus.reader import fingerprint, read_corpus
+from trainer.corpus.records import DEFAULT_ROLES, Record
+from trainer.errors import ConfigError
+
+PACKAGED_PREFIX = "packaged:"
+# name -> (file inside trainer/data, what it is)
+PACKAGED_CORPORA: dict[str, tuple[str, str]] = {
+    "demo": ("demo-train.jsonl", "the invented demo corpus's training journals (demo_annotations/train, compiled by build_demo.py)"),
+}
+
+
+@dataclass
+class AuxiliaryCorpus:
+    """One auxiliary corpus as it joins training: its domain name, source and usable records."""
+
+    name: str
+    source: str
+    records: list[Record]
+    fingerprint: str
+    left_out: int = 0
+
+    def to_dict(self) -> dict[str, Any]:
+        """What a model file's metadata and a report say about it."""
+        return {"name": self.name, "source": self.source, "records": len(self.records),
+                "docs": len({r.doc for r in self.records}), "fingerprint": self.fingerprint,
+                "left_out_shared_with_target": self.left_out}
+
+
+def packaged_corpus_path(name: str) -> Path:
+    """The file of a packaged corpus, e.g. ``demo``."""
+    if name not in PACKAGED_CORPORA:
+        raise ConfigError(f"no packaged corpus named {name!r}",
+                          f"use one of: {', '.join(PACKAGED_PREFIX + n for n in PACKAGED_CORPORA)}, or a path")
+    return Path(str(resources.files("trainer").joinpath("data", PACKAGED_CORPORA[name][0])))
+
+
+def _domain_name(source: str, taken: set[str]) -> str:
+    """A short, unique name for the corpus: the packaged name, or the file or folder stem."""
+    base = source[len(PACKAGED_PREFIX):] if source.startswith(PACKAGED_PREFIX) else Path(source).stem or "aux"
+    name, number = base, 2
+    while name in taken or name == "target":
+        name, number = f"{base}{number}", number + 1
+    return name
+
+
+def read_auxiliary(sources: Sequence[str], *, target: Sequence[Record],
+                   roles: tuple[str, ...] = DEFAULT_ROLES) -> list[AuxiliaryCorpus]:
+    """Read each auxiliary source, keeping the records a model may learn from that the target does not hold.
+
+    Unreviewed pre-annotations are left out as in any training corpus; so are
+    records whose doc or id is in ``target``.
+    """
+    target_docs = {r.doc for r in target}
+    target_ids = {r.id for r in target}
+    out: list[AuxiliaryCorpus] = []
+    for source in sources:
+        path = packaged_corpus_path(source[len(PACKAGED_PREFIX):]) if source.startswith(PACKAGED_PREFIX) else Path(source)
+        usable, _ = read_corpus([path], roles=roles).training_records()
+        kept = [r for r in usable if r.doc not in target_docs and r.id not in target_ids]
+        name = _domain_name(source, {c.name for c in out})
+        out.append(AuxiliaryCorpus(name, source, kept, fingerprint(kept), len(usable) - len(kept)))
+    return out
