@@ -8,7 +8,8 @@ see its ``SOURCES.md``):
    role micro F1 in overlap and exact mode with 95% bootstrap intervals (by
    doc), trigger F1, and role F1 given the gold triggers, for the rules,
    the CRF and logistic configs, and the default config with and without the
-   packaged demo corpus as auxiliary corpus (and with feature augmentation);
+   packaged demo corpus as auxiliary corpus, with feature augmentation, and
+   without each of its new feature groups (rule decisions, WordNet classes);
 2. every config trained on the whole invented demo corpus
    (``demo_annotations/train``) and applied to all real-prose sentences.
 
@@ -63,15 +64,26 @@ class Row:
         return " | ".join(parts)
 
 
-def configs(names: Sequence[str] = ("rules", "crf", "logistic", "default")) -> list[ExperimentConfig]:
-    """The packaged configs, plus the default without auxiliary corpus and with feature augmentation."""
+NEW_GROUPS = ("rules", "wordnet")
+
+
+def configs(names: Sequence[str] = ("rules", "crf", "logistic", "default"), *,
+            ablations: bool = True) -> list[ExperimentConfig]:
+    """The packaged configs and, with ``ablations``, the default without its auxiliary corpus, with feature
+    augmentation, and without each of the rules and WordNet feature groups."""
     loaded = {name: load_config(ROOT / "configs" / f"{name}.toml") for name in names}
     out = [loaded[name] for name in names]
     default = loaded.get("default")
-    if default is not None and default.auxiliary.corpora:
+    if default is None or not ablations:
+        return out
+    if default.auxiliary.corpora:
         out.append(replace(default, name="default, no auxiliary", auxiliary=AuxiliaryConfig()))
         out.append(replace(default, name="default, augmented",
                            auxiliary=replace(default.auxiliary, augment=not default.auxiliary.augment)))
+    for group in NEW_GROUPS:
+        if group in default.features.groups:
+            groups = [g for g in default.features.groups if g != group]
+            out.append(replace(default, name=f"default, no {group} group", features=replace(default.features, groups=groups)))
     return out
 
 
@@ -140,8 +152,7 @@ def main() -> None:
         print(row.line())
     print("\nTrained on the whole demo corpus, applied to all real-prose sentences:")
     print(HEADER)
-    for row in demo_trained_rows(records, [c for c in systems if c.auxiliary.corpora == [] or c.name == "default"],
-                                 bootstrap=args.bootstrap):
+    for row in demo_trained_rows(records, configs(ablations=False), bootstrap=args.bootstrap):
         print(row.line())
     print(f"\n{time.perf_counter() - started:.0f} s in all")
 

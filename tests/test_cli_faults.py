@@ -70,7 +70,11 @@ CASES = {
         ("convert {d}/empty -o {d}/o.jsonl", "is a folder, not a file"),
         ("fit {d}/empty -o {d}/o.itin", "folder holds no *.jsonl files"),
         ("extract {d}/empty {d}/c.jsonl -o {d}/o.jsonl", "is a folder, not a model file"),
-        ("extract {d}/m.itin {d}/empty -o {d}/o.jsonl", "is a folder, not a file"),
+        ("extract {d}/m.itin {d}/empty -o {d}/o.jsonl", "a library is written to a folder"),
+        ("extract {d}/m.itin {d}/empty -o {d}/out", "no .txt or .jsonl books"),
+        ("extract {d}/m.itin {d}/c.jsonl {d}/empty -o {d}/out", "not an extractor"),
+        ("extract {d}/m.itin {d}/c.jsonl {d}/empty -o {d}/out --jobs 0", "at least one worker"),
+        ("extract {d}/m.itin {d}/c.jsonl {d}/empty -o {d}/out --doc x", "work on one input file"),
         ("crossval {d}/empty -o {d}/run", "folder holds no *.jsonl files"),
         ("score {d}/c.jsonl {d}/empty", "folder holds no *.jsonl files"),
         ("contrast {d}/empty {d}/empty", "no report.json here"),
@@ -112,6 +116,7 @@ CASES = {
         ("itinerary {d}/c.jsonl -o {d}/c.jsonl", "also an input"),
         ("suggest {d}/m.itin {d}/c.jsonl -o {d}/c.jsonl", "also an input"),
         ("merge {d}/c.jsonl -b {d}/c.jsonl -o {d}/c.jsonl", "also an input"),
+        ("explain {d}/no.itin", "no such model file"),
     ],
 }
 
@@ -134,7 +139,7 @@ def test_every_command_is_covered():
     from typer.main import get_command
 
     mine = {"check", "convert", "fit", "extract", "crossval", "curve", "score", "contrast", "gate", "itinerary",
-            "suggest", "merge", "demo"}
+            "suggest", "merge", "demo", "explain"}
     assert mine <= set(get_command(app).commands)
     assert covered == mine
 

@@ -137,11 +137,12 @@ def check(
         typer.echo(str(problem))
     records = [r for _, _, r in result.records]
     lemmatize = None
-    if lemmas and records:
+    with_triggers = [r for r in records if r.events]  # only triggers are lemmatised: no events, no parser
+    if lemmas and with_triggers:
         from trainer.config import DEFAULT_PIPELINE
         from trainer.parsing.pipeline import load_pipeline, trigger_lemmatizer
 
-        lemmatize = trigger_lemmatizer(load_pipeline(pipeline or DEFAULT_PIPELINE, groups=["lexical"]), records)
+        lemmatize = trigger_lemmatizer(load_pipeline(pipeline or DEFAULT_PIPELINE, groups=["lexical"]), with_triggers)
     typer.echo("")
     typer.echo(corpus_stats(records, roles=inventory, lemmatize=lemmatize).to_text())
     errors, warnings = len(result.errors), len(result.warnings)
@@ -218,12 +219,13 @@ def _fit_locked(corpus: list[Path], output: Path, cfg, skip_bad: bool, jobs: int
         say(f"left out {len(unreviewed)} pre-annotated record(s) nobody has reviewed (provenance 'predicted'): "
             f"{', '.join(unreviewed[:10])}{' ...' if len(unreviewed) > 10 else ''}")
     say(f"training '{cfg.name}' on {len(annotated)} annotated record(s) from {len({r.doc for r in annotated})} doc(s)")
-    if cfg.auxiliary.corpora:
-        say(f"with auxiliary corpora {', '.join(cfg.auxiliary.corpora)}"
-            f"{' (feature augmentation by corpus)' if cfg.auxiliary.augment else ''}")
     started = time.perf_counter()
     with parallel_config(n_jobs=jobs):
         trained = fit_extractor(annotated, cfg)
+    for aux in trained.auxiliary:
+        say(f"auxiliary corpus '{aux['name']}' ({aux['source']}): {aux['records']} record(s) joined training, "
+            f"{aux['left_out_shared_with_target']} left out (doc or id shared with the training corpus)"
+            f"{'; features augmented by corpus' if cfg.auxiliary.augment else ''}")
     meta = save_extractor(trained, output, records=annotated, training_seconds=time.perf_counter() - started)
     alignment = trained.alignment
     if alignment and (alignment.widened or alignment.dropped):
@@ -237,9 +239,9 @@ def _fit_locked(corpus: list[Path], output: Path, cfg, skip_bad: bool, jobs: int
 @user_errors
 def extract(
     model: Annotated[Path, typer.Argument(help="Model file written by `itinerant fit`.")],
-    source: Annotated[Path, typer.Argument(help="Plain text (.txt) or canonical JSONL (.jsonl) to extract from.")],
-    output: Annotated[Path, typer.Option("--output", "-o", help="Canonical JSONL with predicted events and confidences.")],
-    table: Annotated[Optional[Path], typer.Option(help="Also write a flat table of events (.csv or .tsv).")] = None,
+    sources: Annotated[list[Path], typer.Argument(help="Books: plain text (.txt) or canonical JSONL (.jsonl) files, or folders of them.")],
+    output: Annotated[Path, typer.Option("--output", "-o", help="For one input file, a file (canonical JSONL with predicted events and confidences); for a library, a folder getting one <book>.jsonl per book.")],
+    table: Annotated[Optional[Path], typer.Option(help="Also write a flat table of events (.csv or .tsv); for a library, one table of every book.")] = None,
     input_format: Annotated[Optional[str], typer.Option("--input-format", help="text or jsonl (default: by extension).")] = None,
     doc: Annotated[Optional[str], typer.Option(help="Document name for plain text (default: the file name).")] = None,
     batch_size: Annotated[int, typer.Option(help="Sentences per batch.")] = 256,
@@ -247,14 +249,31 @@ def extract(
     skip_bad: Annotated[bool, typer.Option(help="JSONL input: leave out records with errors (listed).")] = False,
     progress: Annotated[Optional[bool], typer.Option(help="Show a progress bar (default: when stderr is a terminal).")] = None,
     compare: Annotated[bool, typer.Option(help="JSONL input with events: score the predictions against them.")] = False,
+    jobs: Annotated[int, typer.Option("--jobs", "-j", help="Library: books extracted at once, in local worker processes.")] = 1,
+    scheduler: Annotated[Optional[str], typer.Option(help="Library: Dask scheduler address (e.g. tcp://host:8786); one task per book on that cluster, whose workers must see the same paths.")] = None,
 ) -> None:
-    """Apply a model to a book or a JSONL file; offsets into a plain-text file are kept in each record's meta."""
+    """Apply a model to a book, a JSONL file or a whole library; offsets into a plain-text file are kept in each record's meta.
+
+    Several inputs, a folder, or an output folder (existing, or named without an extension) make a library run:
+    one output per book, a book that fails is reported and the others go on. Exit codes: 0 all written,
+    1 some books failed, 2 unusable input or output.
+    """
     from trainer.errors import ConfigError
     from trainer.models.apply import check_source, extract_file
+    from trainer.models.library import names_a_library
     from trainer.models.persist import digest_path
     from trainer.models.training import load_extractor
     from trainer.outputs import check_output
 
+    show = sys.stderr.isatty() if progress is None else progress
+    if names_a_library(sources, output):
+        if doc or compare:
+            raise ConfigError("--doc and --compare work on one input file, not a library",
+                              "extract that book on its own, with -o naming a .jsonl file")
+        _extract_library(model, sources, output, table=table, input_format=input_format, batch_size=batch_size,
+                         resume=resume, skip_bad=skip_bad, show=show, jobs=jobs, scheduler=scheduler)
+        return
+    source = sources[0]
     fmt = input_format or ("jsonl" if source.suffix == ".jsonl" else "text")
     if compare and fmt != "jsonl":
         raise ConfigError("--compare needs JSONL input whose records carry events", "drop --compare for plain text")
@@ -264,7 +283,7 @@ def extract(
     if table:
         check_output(table, inputs=[*inputs, output], what="event table")
     trained, _ = load_extractor(model)
-    with progress_bar(f"extracting {source.name}", enabled=sys.stderr.isatty() if progress is None else progress) as update:
+    with progress_bar(f"extracting {source.name}", enabled=show) as update:
         summary = extract_file(trained, source, output, input_format=fmt, doc_name=doc, batch_size=batch_size,
                                resume=resume, skip_bad=skip_bad, on_progress=update)
     for problem in summary.skipped:
@@ -276,12 +295,66 @@ def extract(
         from trainer.reports.markdown import score_markdown
         from trainer.reports.runs import score_report
 
-        typer.echo(score_markdown(score_report(source, output, roles=trained.roles, settings=EvaluationSettings())))
+        typer.echo(score_markdown(score_report(source, output, roles=trained.roles, settings=EvaluationSettings(),
+                                               allow_missing=True)))  # records skipped above count as missed
     if table:
         from trainer.corpus.convert import convert_file
 
         convert_file(output, table, from_format="jsonl", to_format="table", roles=trained.roles)
         say(f"event table written to {table}")
+
+
+@contextmanager
+def library_progress(*, enabled: bool):
+    """Report each finished book: a bar of books done, words per second and time left, or a line per failure."""
+    from trainer.models.library import FAILED, SKIPPED
+
+    if not enabled:
+        yield lambda result, done, total: say(f"failed: {result.error}") if result.status == FAILED else None
+        return
+    from rich.console import Console
+    from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
+
+    columns = (TextColumn("extracting"), BarColumn(), TextColumn("{task.completed:.0f}/{task.fields[books]} books"),
+               TextColumn("{task.fields[rate]:,.0f} words/s"), TimeElapsedColumn(), TextColumn("left {task.fields[left]}"))
+    started, words, worked = time.perf_counter(), [0], [0]
+    with Progress(*columns, console=Console(stderr=True)) as bar:
+        task = bar.add_task("books", total=None, books="?", rate=0.0, left="-:--:--")
+
+        def update(result, done: int, total: int) -> None:
+            elapsed = time.perf_counter() - started
+            words[0] += result.words
+            worked[0] += result.status != SKIPPED
+            left = elapsed / worked[0] * (total - done) if worked[0] else 0.0
+            bar.update(task, completed=done, total=total, books=total, rate=words[0] / max(elapsed, 1e-9),
+                       left=time.strftime("%H:%M:%S", time.gmtime(left)))
+            if result.status == FAILED:
+                bar.console.print(f"failed: {result.error}", markup=False, highlight=False, soft_wrap=True)
+
+        yield update
+
+
+def _extract_library(model: Path, sources: list[Path], folder: Path, *, table: Path | None, input_format: str | None,
+                     batch_size: int, resume: bool, skip_bad: bool, show: bool, jobs: int, scheduler: str | None) -> None:
+    """The library part of ``extract``: every book into FOLDER, failures counted (exit 1 when any)."""
+    from trainer.models.library import DONE, SKIPPED, extract_library
+
+    with library_progress(enabled=show) as on_book:
+        summary = extract_library(model, sources, folder, jobs=jobs, scheduler=scheduler, resume=resume,
+                                  batch_size=batch_size, skip_bad=skip_bad, input_format=input_format, table=table,
+                                  on_book=on_book)
+    for result in summary.results:
+        for problem in result.skipped:
+            say(f"skipped {problem}")
+    done = [r for r in summary.results if r.status == DONE]
+    words = sum(r.words for r in done)
+    say(f"{len(done)} book(s) extracted, {summary.count(SKIPPED)} already done, {len(summary.failed)} failed; "
+        f"{sum(r.sentences for r in done)} sentence(s), {sum(r.events for r in done)} event(s), "
+        f"{words} word(s) in {summary.seconds:.1f} s ({words / max(summary.seconds, 1e-9):,.0f} words/s); written to {folder}/")
+    if summary.table:
+        say(f"event table of every book written to {summary.table}")
+    if summary.failed:
+        raise typer.Exit(1)
 
 
 FoldsOption = Annotated[Optional[int], typer.Option("--folds", "-k", help="Number of grouped folds (default: the config's).")]
@@ -404,6 +477,8 @@ def score(
     seed: Annotated[int, typer.Option(help="Bootstrap seed.")] = 13,
     bootstrap: Annotated[int, typer.Option(help="Bootstrap samples per interval.")] = 1000,
     output: Annotated[Optional[Path], typer.Option("--output", "-o", help="Also write score.json into this folder.")] = None,
+    allow_missing: Annotated[bool, typer.Option(
+        help="Score gold records that have no prediction as missed (listed in the report) instead of stopping.")] = False,
 ) -> None:
     """Score predictions from any extractor against gold with itinerant's scorer."""
     from trainer.evaluation.summary import EvaluationSettings
@@ -411,7 +486,8 @@ def score(
     from trainer.reports.runs import score_report
 
     settings = EvaluationSettings(mode=mode, seed=seed, bootstrap_samples=bootstrap)
-    report = score_report(gold, predictions, roles=_roles(roles), settings=settings, folder=output)
+    report = score_report(gold, predictions, roles=_roles(roles), settings=settings, folder=output,
+                          allow_missing=allow_missing)
     typer.echo(score_markdown(report))
 
 
@@ -612,6 +688,18 @@ def review(
 
 @app.command()
 @user_errors
+def explain(
+    model: Annotated[Path, typer.Argument(help="A model file written by `itinerant fit` (its digest is checked).")],
+    top: Annotated[int, typer.Option(help="Features listed per label and side, and transitions listed.")] = 10,
+) -> None:
+    """List what a model learned: the strongest features for and against each label, and CRF transitions."""
+    from trainer.models.explain import explain_model, explanation_text
+
+    typer.echo(explanation_text(explain_model(model, top=top)))
+
+
+@app.command()
+@user_errors
 def agree(
     files: Annotated[list[Path], typer.Argument(help="Two or more annotators' JSONL files (or folders) of the same sentences.")],
     output: Annotated[Optional[Path], typer.Option("--output", "-o", help="Also write agreement.json, agreement.html and disagreements.tsv into this folder.")] = None,
@@ -654,7 +742,7 @@ def demo(
     fit([data / "train"], output=model, config=configs / "default.toml", skip_bad=False, jobs=1)
     say("\n== 4. extracting motion events from the unannotated chapter")
     chapter = data / "unannotated" / "delacott-survey-3.txt"
-    extract(model, chapter, output=output / "chapter.jsonl", table=output / "chapter-events.tsv",
+    extract(model, [chapter], output=output / "chapter.jsonl", table=output / "chapter-events.tsv",
             input_format="text", doc=None, batch_size=256)
     say(f"\nall results are in {output}/")
 

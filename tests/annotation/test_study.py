@@ -13,12 +13,9 @@ strategies must also learn: the last round beats the start model (measured
 
 from __future__ import annotations
 
-import importlib.util
-import sys
-
 import pytest
 
-from tests.conftest import REPO
+from tests.conftest import load_bench
 
 pytestmark = pytest.mark.slow
 
@@ -27,11 +24,7 @@ MIN_GAIN = 0.02
 
 
 def load_study():
-    spec = importlib.util.spec_from_file_location("annotation_study", REPO / "bench" / "annotation_study.py")
-    module = importlib.util.module_from_spec(spec)
-    sys.modules[spec.name] = module  # its dataclasses look their module up there
-    spec.loader.exec_module(module)
-    return module
+    return load_bench("annotation_study")
 
 
 def test_suggested_batches_are_not_worse_than_random_ones_and_both_learn(tmp_path_factory):

@@ -95,3 +95,55 @@ def test_unknown_scheduler_package_message(monkeypatch, small, nlp, serial):
 
     with pytest.raises(ConfigError, match="itinerant\\[cluster\\]"):
         crossval_module._dispatch([], jobs=1, scheduler="tcp://127.0.0.1:1", progress=None)
+
+
+def test_report_scores_per_doc_and_book_pool_to_the_overall_counts_and_warn_about_three_docs(serial):
+    from trainer.evaluation.breakdown import pooled_totals
+    from trainer.evaluation.scoring import Counts
+
+    data = metrics(serial)
+    for system in data["systems"]:
+        assert system["interval_docs"] == 3 and "only 3 doc(s)" in system["interval_warning"]
+        assert system["matching"]["exact"]["micro"] == {k: system["scores"]["micro"][k]
+                                                         for k in system["matching"]["exact"]["micro"]}
+        assert list(system["per_doc"]) == list(DOCS)
+        assert list(system["per_book"]) == ["amsel-pilgrim", "brannick-log", "quarne-salt"]
+        for mode in ("exact", "overlap"):
+            pooled = system["matching"][mode]
+            for key in ("mover", "source", "path", "destination", "micro", "trigger"):
+                score = pooled["roles"].get(key) or pooled[key]
+                total = Counts(score["tp"], score["fp"], score["fn"])
+                assert pooled_totals(system["per_doc"], mode, key) == total
+                assert pooled_totals(system["per_book"], mode, key) == total
+                folds = {f"fold {f['fold']}": f for f in system["per_fold"]}
+                assert pooled_totals(folds, mode, key) == total
+        assert system["matching"]["overlap"]["micro"]["tp"] >= system["matching"]["exact"]["micro"]["tp"]
+
+
+def test_learning_curve_always_ends_at_the_full_training_set_with_intervals_for_every_score(small, nlp, serial):
+    records, configs, plans = small
+    curve = learning_curve(records, configs, plans, shares=(0.5,), docs=serial.docs, full_run=serial)
+    assert curve["shares"] == [0.5, 1.0]
+    full = {s.name: s for s in summarise(serial).systems}
+    for name, points in curve["systems"].items():
+        assert [p["share"] for p in points] == [0.5, 1.0]
+        assert points[-1]["f1"] == {k: round(v, 6) for k, v in full[name].scores.f1s().items()}
+        for point in points:
+            assert set(point["intervals"]) == set(point["f1"])  # every role, micro, macro, trigger, unlinked
+            assert all(0 <= low <= high <= 1 for low, high in point["intervals"].values())
+            assert "only 3 doc(s)" in point["interval_warning"]
+
+
+def test_explained_run_keeps_the_features_behind_every_learned_predicted_span(small, nlp, serial):
+    records, configs, plans = small
+    run = run_crossval(records, configs, plans, nlp=nlp, docs=serial.docs, explain=True)
+    crf, rules = run.systems
+    explained = crf.explanations()
+    spans = {(r.id, label, a, b) for r in crf.predictions() for e in r.events or ()
+             for label, (a, b) in [("trigger", e.trigger), *((x.role, x.span) for x in e.roles)]}
+    keys = {(rid, *key) for rid, found in explained.items() for key in found}
+    assert keys and keys <= spans
+    assert len(keys) > 0.9 * len(spans)  # every span but those whose features all weigh against its label
+    assert all(w > 0 for found in explained.values() for features in found.values() for _, w in features)
+    assert rules.explanations() == {}  # rules learn no weights
+    assert [r.events for r in crf.predictions()] == [r.events for r in serial.systems[0].predictions()]

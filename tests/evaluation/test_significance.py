@@ -9,7 +9,7 @@ from scipy.stats import permutation_test
 
 from trainer.errors import ConfigError, CorpusError
 from trainer.evaluation.scoring import Counts, f1_names, scores_from_counts
-from trainer.evaluation.significance import compare_f1s, paired_randomization
+from trainer.evaluation.significance import compare_f1s, holm, paired_randomization
 
 
 def total_tp(units: list) -> float:
@@ -103,3 +103,57 @@ def test_refusals() -> None:
         compare_f1s({"d": {"mover": Counts(1, 0, 0)}}, {"d": {"mover": Counts(0, 0, 0)}}, ROLES)
     with pytest.raises(ConfigError, match=r"^exact=True enumerates 2\*\*21 swaps; at most 20 units allowed"):
         paired_randomization(a * 7, b * 7, statistic=micro_f1, exact=True)
+
+
+# ---------------------------------------------------------------- Holm's correction
+
+
+def test_holm_worked_example_four_hypotheses() -> None:
+    # The four-hypothesis example of the Wikipedia article "Holm–Bonferroni method" (values from memory):
+    # p = 0.01, 0.04, 0.03, 0.005 at alpha 0.05; sorted 0.005 < 0.05/4, 0.01 < 0.05/3, 0.03 > 0.05/2, so
+    # H4 and H1 are rejected and H2, H3 are not. Adjusted by Holm's (1979) rule, min(1, max_j<=i (m-j+1) p_(j)):
+    # 4 x 0.005 = 0.02, 3 x 0.01 = 0.03, max(0.03, 2 x 0.03) = 0.06, max(0.06, 1 x 0.04) = 0.06.
+    adjusted = holm([0.01, 0.04, 0.03, 0.005])
+    assert adjusted == pytest.approx([0.03, 0.06, 0.06, 0.02])
+    assert [p <= 0.05 for p in adjusted] == [True, False, False, True]
+
+
+def test_holm_equals_statsmodels_multipletests() -> None:
+    # Reference library: statsmodels.stats.multitest.multipletests(method="holm") (in the test extra).
+    multitest = pytest.importorskip("statsmodels.stats.multitest")
+    rng = np.random.default_rng(5)
+    for m in (1, 2, 3, 7, 20):
+        p = np.round(rng.uniform(0, 0.2, m), 4)  # rounding makes ties, which must not change the result
+        reject, expected, _, _ = multitest.multipletests(p, alpha=0.05, method="holm")
+        assert holm(list(p)) == pytest.approx(list(expected), abs=1e-12)
+        assert [a <= 0.05 for a in holm(list(p))] == list(reject)
+
+
+def test_holm_keeps_order_never_lowers_and_caps_at_one() -> None:
+    assert holm([]) == []
+    assert holm([0.04]) == [0.04]  # a single test is not corrected
+    assert holm([0.6, 0.3, 0.01]) == pytest.approx([0.6, 0.6, 0.03])  # 3 x 0.01, 2 x 0.3, max(0.6, 1 x 0.6)
+    assert holm([0.6, 0.7, 0.01]) == pytest.approx([1.0, 1.0, 0.03])  # 2 x 0.6 = 1.2 is capped at 1
+    with pytest.raises(ConfigError, match="p-values must lie in"):
+        holm([0.5, 1.5])
+
+
+def test_a_run_holm_adjusts_each_score_over_its_pairs_of_configs() -> None:
+    from types import SimpleNamespace
+
+    from trainer.evaluation.summary import EvaluationSettings, compare_systems
+    from trainer.evaluation.scoring import CorpusCounts, UNLINKED, TRIGGER
+
+    def system(name: str, tps: list[int]):
+        by_record = {f"r{i}": {**{role: Counts(tp, 3 - tp, 3 - tp) for role in ROLES}, TRIGGER: Counts(tp, 0, 3 - tp),
+                               **{UNLINKED + role: Counts(tp, 0, 3 - tp) for role in ROLES}} for i, tp in enumerate(tps)}
+        counts = CorpusCounts("exact", ROLES, by_record, {f"r{i}": f"d{i}" for i in range(len(tps))})
+        return SimpleNamespace(name=name, counts=counts, scores=SimpleNamespace(roles=ROLES))
+
+    systems = [system("a", [3, 3, 2, 3, 3, 3]), system("b", [0, 1, 0, 1, 0, 0]), system("c", [1, 1, 0, 2, 1, 0])]
+    comparisons = compare_systems(systems, EvaluationSettings(trials=999, seed=3))
+    assert [(c.a, c.b) for c in comparisons] == [("a", "b"), ("a", "c"), ("b", "c")]
+    for name in comparisons[0].tests:
+        raw = [c.tests[name][1] for c in comparisons]
+        assert [c.holm[name] for c in comparisons] == holm(raw)
+        assert all(c.holm[name] >= c.tests[name][1] for c in comparisons)

@@ -8,23 +8,14 @@ It is evaluation data, never training data for the packaged models.
 
 from __future__ import annotations
 
-import importlib.util
 import subprocess
 import sys
 
 import pytest
 
-from tests.conftest import REPO
+from tests.conftest import REPO, load_bench
 
 REAL_PROSE = REPO / "tests" / "external" / "real-prose"
-
-
-def load_bench():
-    spec = importlib.util.spec_from_file_location("real_prose_bench", REPO / "bench" / "real_prose.py")
-    module = importlib.util.module_from_spec(spec)
-    sys.modules[spec.name] = module  # its dataclasses look their module up there
-    spec.loader.exec_module(module)
-    return module
 
 
 def test_the_compiled_corpus_matches_its_annotated_sources() -> None:
@@ -46,9 +37,9 @@ def test_every_book_is_named_in_the_sources_file() -> None:
 
 @pytest.mark.slow
 def test_the_learned_default_beats_the_rules_leaving_one_book_out() -> None:
-    bench = load_bench()
+    bench = load_bench("real_prose")
     records = bench.real_prose_records()
-    rows = {row.name: row for row in bench.leave_one_book_out_rows(records, bench.configs(("rules", "default")),
+    rows = {row.name: row for row in bench.leave_one_book_out_rows(records, bench.configs(("rules", "default"), ablations=False),
                                                                     jobs=2, bootstrap=200)}
     rules, default = rows["rules"], rows["default"]
     print(f"\nleave one book out, overlap: rules role F1 {rules.role_f1['overlap']:.3f} trigger "

@@ -76,3 +76,18 @@ def test_ner_is_off_only_when_no_entities_are_read() -> None:
     doc = load_pipeline(groups=["lexical"])("Colm Amsel walked to London on 3 May.")
     assert doc.ents == ()
     assert [t.dep_ for t in doc][:3] == ["compound", "nsubj", "ROOT"]
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("group", FEATURE_GROUPS)
+def test_the_components_a_group_keeps_give_the_features_of_the_whole_pipeline(nlp: Language, demo_test, group: str) -> None:
+    """COMPONENTS_BY_GROUP is complete: a group's token features on the pruned pipeline equal those on the full one."""
+    from trainer.config import FeatureConfig
+    from trainer.corpus.reader import read_corpus
+    from trainer.features.extract import Featurizer
+
+    texts = [r.text for r in read_corpus([demo_test / "ruddock-drove-1.jsonl"]).records][:25]
+    pruned = load_pipeline(groups=[group])
+    featurizer = Featurizer.from_config(FeatureConfig(groups=[group]), pruned)
+    assert [featurizer.token_features(d) for d in pruned.pipe(texts)] == [featurizer.token_features(d) for d in nlp.pipe(texts)]
+    assert ("ner" in pruned.pipe_names) is (group == "tagging")

@@ -14,9 +14,14 @@ Records (offsets found with ``str.index`` so they can be checked by eye):
 from __future__ import annotations
 
 import copy
+import dataclasses
 from typing import Any
 
 from trainer.corpus.records import Event, Record, RoleSpan
+from trainer.evaluation.bootstrap import interval_warning
+from trainer.evaluation.breakdown import breakdown
+from trainer.evaluation.confidence import confidence_report
+from trainer.evaluation.scoring import count_corpus
 
 ROLES = ["mover", "source", "path", "destination"]
 
@@ -69,6 +74,24 @@ def predictions() -> dict[str, list[Record]]:
     return {"alpha": alpha, "beta": beta}
 
 
+def with_confidences(records: list[Record]) -> list[Record]:
+    """The records with made-up confidences: 0.9 on triggers, 0.8 on spans longer than 8 characters, else 0.55."""
+    def role(span: RoleSpan) -> RoleSpan:
+        return dataclasses.replace(span, confidence=0.8 if span.span[1] - span.span[0] > 8 else 0.55)
+
+    return [r.with_events([dataclasses.replace(e, confidence=0.9, roles=tuple(role(a) for a in e.roles))
+                           for e in r.events]) if r.events is not None else r for r in records]
+
+
+def measured(name: str) -> dict[str, Any]:
+    """Both modes, per doc and per book, calibration and thresholds, computed from the sample records."""
+    gold, predicted = gold_records(), with_confidences(predictions()[name])
+    by_mode = {mode: count_corpus(gold, predicted, roles=ROLES, mode=mode) for mode in ("exact", "overlap")}
+    confidence = confidence_report(gold, predicted, roles=ROLES)
+    return {**breakdown(by_mode), "per_fold": [], "calibration": confidence["calibration"],
+            "thresholds": confidence["thresholds"]}
+
+
 def _score(precision: float, recall: float, f1: float, gold: int = 10, predicted: int = 9) -> dict[str, Any]:
     return {"precision": precision, "recall": recall, "f1": f1, "tp": 7, "fp": predicted - 7, "fn": gold - 7,
             "gold": gold, "predicted": predicted}
@@ -98,6 +121,9 @@ def _system(name: str, shift: float) -> dict[str, Any]:
         "scores": scores,
         "gold_trigger_scores": _scores(shift / 2),
         "intervals": {key: [round(value - 0.1, 6), round(min(value + 0.05, 1.0), 6)] for key, value in f1.items()},
+        "interval_docs": 2,
+        "interval_warning": interval_warning(2),
+        **measured(name),
         "fold_f1": {key: {"mean": value, "std": 0.02, "per_fold": [value - 0.02, value + 0.02]} for key, value in f1.items()},
         "errors": {
             "roles": ROLES,
@@ -122,10 +148,10 @@ def _system(name: str, shift: float) -> dict[str, Any]:
 
 
 def tiny_report(*, curve: bool = False) -> dict[str, Any]:
-    """A report dict shaped like ``report.json`` (version 1) for two configs, alpha and beta."""
+    """A report dict shaped like ``report.json`` (version 2) for two configs, alpha and beta."""
     report: dict[str, Any] = {
         "schema": "itinerant.evaluation-report",
-        "schema_version": 1,
+        "schema_version": 2,
         "corpus": {"files": ["tiny/<train>.jsonl"], "fingerprint": "0123456789abcdef" * 4, "records": 5, "docs": 2},
         "roles": list(ROLES),
         "settings": {"mode": "exact", "bootstrap_samples": 200, "bootstrap_unit": "doc", "confidence": 0.95,
@@ -138,14 +164,20 @@ def tiny_report(*, curve: bool = False) -> dict[str, Any]:
         "versions": {"python": "3.11", "itinerant": "0.1.0"},
         "systems": [_system("alpha", 0.0), _system("beta", 0.1)],
         "comparisons": [{"a": "alpha", "b": "beta", "tests": {
-            "micro": {"difference": 0.1, "p_value": 0.03}, "mover": {"difference": -0.02, "p_value": 0.5}}}],
+            "micro": {"difference": 0.1, "p_value": 0.03, "p_holm": 0.03},
+            "mover": {"difference": -0.02, "p_value": 0.5, "p_holm": 0.5},
+            **{name: {"difference": 0.05, "p_value": 0.2, "p_holm": 0.2}
+               for name in ("source", "path", "destination", "trigger")}}}],
         "learning_curve": None,
     }
     if curve:
         report["learning_curve"] = {"shares": [0.5, 1.0], "systems": {
             name: [{"share": share, "train_records": 10 * share,
                     "f1": {key: round(value * share, 6) for key, value in
-                           {**{r: 0.7 for r in ROLES}, "micro": 0.72, "macro": 0.7, "trigger": 0.9}.items()}}
+                           {**{r: 0.7 for r in ROLES}, "micro": 0.72, "macro": 0.7, "trigger": 0.9}.items()},
+                    "intervals": {key: [round(value * share - 0.1, 6), round(value * share + 0.05, 6)] for key, value in
+                                  {**{r: 0.7 for r in ROLES}, "micro": 0.72, "macro": 0.7, "trigger": 0.9}.items()},
+                    "interval_warning": interval_warning(2)}
                    for share in (0.5, 1.0)]
             for name in ("alpha", "beta")}}
     return copy.deepcopy(report)

@@ -6,11 +6,13 @@ import os
 import re
 import shutil
 import subprocess
+from contextlib import contextmanager
 from html.parser import HTMLParser
 from pathlib import Path
+from typing import Any, Iterator
 
 import pytest
-from report_samples import ROLES, S1, S2, gold_records, predictions, tiny_report
+from report_samples import ROLES, S1, S2, at, gold_records, predictions, tiny_report
 
 from trainer.reports.html import (
     LineTally,
@@ -19,7 +21,7 @@ from trainer.reports.html import (
     css_name,
     highlight,
     html_report,
-    select_sentences,
+    sentence_errors,
     span_marks,
 )
 
@@ -141,12 +143,14 @@ def test_page_escapes_every_text_with_a_less_than_sign() -> None:
 def test_page_is_standalone_with_embedded_figures() -> None:
     out = page()
     assert out.startswith("<!DOCTYPE html>")
-    assert len(re.findall(r'<img src="data:image/png;base64,[A-Za-z0-9+/=]+"', out)) == 1
+    # F1 at a glance, then a reliability diagram and a precision-recall figure per config
+    assert len(re.findall(r'<img src="data:image/png;base64,[A-Za-z0-9+/=]+"', out)) == 1 + 2 * 2
     with_curve = html_report(tiny_report(curve=True), gold_records(), predictions())
-    assert len(re.findall(r'<img src="data:image/png;base64,[A-Za-z0-9+/=]+"', with_curve)) == 2
+    assert len(re.findall(r'<img src="data:image/png;base64,[A-Za-z0-9+/=]+"', with_curve)) == 1 + 2 * 2 + 1
     assert 'id="learning-curve"' in with_curve and 'id="learning-curve"' not in out
-    for external in ("<script", "<link", 'src="http', "url(", "@import"):
+    for external in ("<script src", "<link", 'src="http', "url(", "@import"):
         assert external not in out
+    assert out.count("<script>") == 1  # the inline filter and pager of the sentence list
 
 
 def test_page_score_tables_and_sections() -> None:
@@ -164,11 +168,11 @@ def test_page_score_tables_and_sections() -> None:
     assert "the same held-out folds with the gold".lower() in out.lower()
 
 
-def test_page_shows_the_sentences_with_events_only() -> None:
-    assert [r.id for r in select_sentences(gold_records(), predictions())] == ["d1-s1", "d1-s2", "d2-s2"]
+def test_page_lists_every_annotated_sentence() -> None:
     out = page()
-    assert "All 3 held-out sentences with gold or predicted events." in out
-    assert "Unannotated text" not in out and "It rained all day." not in out
+    assert "All 4 annotated held-out sentences, 50 to a page" in out
+    assert "Unannotated text" not in out and "It rained all day." in out
+    assert re.findall(r'<li class="(?:agree|differs)" data-doc="([^"]+)"', out) == ["d1", "d1", "d2", "d2"]
     marks = marks_of(out)
     assert (None, ("role-mover", "nomatch"), "The wind") not in marks
     assert ("beta", ("role-mover", "nomatch"), "The wind") in marks
@@ -180,10 +184,30 @@ def test_page_shows_the_sentences_with_events_only() -> None:
     assert ("alpha", ("role-source", "match"), "Caddow") in marks
 
 
-def test_page_caps_the_sentences_and_says_how_many_were_left_out() -> None:
-    out = html_report(tiny_report(), gold_records(), predictions(), max_sentences=1)
-    assert "Showing the first 1 of 3 held-out sentences with gold or predicted events; 2 left out" in out
-    assert "d1-s1 · d1" in out and "d1-s2 · d1" not in out
+def test_sentence_errors_name_config_role_and_kind_of_every_instance() -> None:
+    gold = {r.id: r for r in gold_records()}
+    by_config = {name: {r.id: r for r in records} for name, records in predictions().items()}
+    # d1-s2 "followed": alpha cuts the path to "the road" (boundary); beta predicts nothing (all missed).
+    assert sentence_errors(gold["d1-s2"], by_config, ROLES) == [
+        ("alpha", "destination", "correct"), ("alpha", "mover", "correct"), ("alpha", "path", "boundary"),
+        ("alpha", "trigger", "correct"),
+        ("beta", "destination", "missed"), ("beta", "mover", "missed"), ("beta", "path", "missed"),
+        ("beta", "trigger", "missed")]
+    # d2-s2 has no gold event; beta's "rose" with its mover is spurious.
+    assert sentence_errors(gold["d2-s2"], by_config, ROLES) == [("beta", "mover", "spurious"),
+                                                               ("beta", "trigger", "spurious")]
+    out = page()
+    assert 'data-errors="[[&quot;beta&quot;, &quot;mover&quot;, &quot;spurious&quot;], ' in out
+
+
+def test_a_predicted_span_shows_the_features_that_weighed_most_for_it() -> None:
+    path = at(S2, "the road")
+    explanations = {"alpha": {"d1-s2": {("path", *path): [("gov_prep_cue:path", 1.5), ("-1:lemma:followed", 0.25)]}}}
+    out = html_report(tiny_report(), gold_records(), predictions(), explanations=explanations)
+    assert ('title="path of “followed” · weighed most: gov_prep_cue:path +1.50, -1:lemma:followed +0.25 '
+            '(no gold span like it)"') in out
+    assert out.count("weighed most:") == 1  # beta, and alpha's other spans, have none given
+    assert "weighed most:" not in page()
 
 
 def test_page_is_the_same_for_the_same_data() -> None:
@@ -281,3 +305,96 @@ def test_the_role_palette_stays_apart_under_colour_vision_deficiencies_and_keeps
     assert min(contrast_with_black(c) for c in ROLE_COLOURS.values()) >= 9  # WCAG AAA asks 7:1
     old_toolkit_tints = ("#ffd8a8", "#a5d8ff", "#b2f2bb", "#eebefa")
     assert closest_pair(old_toolkit_tints) < 3  # the palette it replaces: deuteranomaly merges two roles
+
+
+@contextmanager
+def page_in_chromium(binary: str, html_file: Path) -> Iterator[Any]:
+    """``html_file`` open in headless Chromium, driven by Playwright pointed at that binary (nothing downloaded)."""
+    from playwright.sync_api import sync_playwright
+
+    with sync_playwright() as playwright:
+        browser = playwright.chromium.launch(executable_path=binary, args=CHROMIUM_FLAGS)
+        try:
+            page = browser.new_page(viewport={"width": 1280, "height": 900})
+            page.goto(html_file.as_uri())
+            yield page
+        finally:
+            browser.close()
+
+
+@pytest.mark.browser
+def test_new_sections_render_in_chromium_both_modes_groups_confidence_warnings_holm(tmp_path: Path) -> None:
+    """Exact/overlap, per book/doc, calibration and thresholds, the few-docs warning and Holm's column, as drawn."""
+    binary = chromium_or_skip()
+    html_file = tmp_path / "report.html"
+    weighed = {"alpha": {"d1-s2": {("path", *at(S2, "the road")): [("gov_prep_cue:path", 1.5)]}}}
+    html_file.write_text(html_report(tiny_report(curve=True), gold_records(), predictions(), explanations=weighed),
+                         encoding="utf-8")
+    shot = Path(os.environ.get("REPORT_SCREENSHOT") or tmp_path / "sections.png")
+    with page_in_chromium(binary, html_file) as page:
+        alpha = page.locator("#config-alpha")
+        head = alpha.locator("table.matching thead th").all_inner_texts()
+        assert head == ["score", "exact P", "exact R", "exact F1", "overlap P", "overlap R", "overlap F1"]
+        assert alpha.locator("table.matching tbody th").all_inner_texts() == [*ROLES, "micro", "trigger"]
+        assert alpha.locator("table.per-book tbody th").all_inner_texts() == ["d1", "d2"]
+        assert alpha.locator("table.per-doc tbody th").all_inner_texts() == ["d1", "d2"]
+        labels = alpha.locator("table.confidence tbody th").all_inner_texts()
+        assert labels == ["trigger", *ROLES, "all_roles"]
+        warning = alpha.locator("p.warning").first
+        assert warning.is_visible() and "only 2 doc(s)" in warning.inner_text()
+        assert warning.evaluate("e => getComputedStyle(e).backgroundColor") == "rgb(251, 237, 227)"
+        figures = alpha.locator("img")
+        assert figures.count() == 2
+        sizes = figures.evaluate_all("imgs => imgs.map(i => [i.complete, i.naturalWidth, i.naturalHeight])")
+        assert all(done and width > 300 and height > 200 for done, width, height in sizes)  # decoded PNGs
+        holm = page.locator("#comparisons thead th").all_inner_texts()
+        assert holm[-2:] == ["p", "p (Holm)"]
+        curve = page.locator("#learning-curve table.curve tbody tr").first.locator("td").nth(3).inner_text()
+        assert "–" in curve  # each learning-curve cell shows its interval under the F1
+        hover = page.locator('.text.pred[data-config="alpha"] mark.nomatch').first.get_attribute("title")
+        assert hover == "path of “followed” · weighed most: gov_prep_cue:path +1.50 (no gold span like it)"
+        alpha.screenshot(path=str(shot))
+    assert shot.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n" and shot.stat().st_size > 30_000
+    print(f"screenshot of the new report sections: {shot}")
+
+
+@pytest.mark.browser
+def test_sentence_list_filters_by_config_doc_role_and_kind_and_pages_in_chromium(tmp_path: Path) -> None:
+    binary = chromium_or_skip()
+    html_file = tmp_path / "report.html"
+    html_file.write_text(html_report(tiny_report(), gold_records(), predictions(), page_size=2), encoding="utf-8")
+    shot = Path(os.environ.get("SENTENCES_SCREENSHOT") or tmp_path / "sentences.png")
+    with page_in_chromium(binary, html_file) as page:
+
+        def shown() -> list[str]:
+            return [t.split(" ·")[0] for t in page.locator("ol.sentences > li:visible .sid").all_inner_texts()]
+
+        status = page.locator("#page-status")
+        assert shown() == ["d1-s1", "d1-s2"] and status.inner_text() == "sentences 1–2 of 4 matching (page 1 of 2)"
+        assert page.locator("#page-previous").is_disabled()
+        page.click("#page-next")
+        assert shown() == ["d2-s1", "d2-s2"] and page.locator("#page-next").is_disabled()
+        form = page.locator("#sentence-filter")
+        form.locator('select[name="kind"]').select_option("boundary")
+        assert shown() == ["d1-s2"] and status.inner_text() == "sentences 1–1 of 1 matching (page 1 of 1)"
+        form.locator('select[name="kind"]').select_option("spurious")
+        form.locator('select[name="config"]').select_option("beta")
+        assert shown() == ["d2-s2"]
+        form.locator('select[name="config"]').select_option("alpha")
+        assert shown() == [] and status.inner_text() == "no sentence matches"
+        form.locator('select[name="kind"]').select_option("error")
+        form.locator('select[name="role"]').select_option("path")
+        assert shown() == ["d1-s2"]  # alpha's only path error: the boundary in d1-s2
+        form.locator('select[name="config"]').select_option("beta")
+        form.locator('select[name="role"]').select_option("source")
+        assert shown() == ["d1-s1"]  # beta missed the source "Caddow"
+        for name in ("config", "role", "kind"):
+            form.locator(f'select[name="{name}"]').select_option("")
+        form.locator('select[name="doc"]').select_option("d2")
+        assert shown() == ["d2-s1", "d2-s2"]
+        form.locator('select[name="doc"]').select_option("")
+        form.locator('select[name="size"]').select_option("25")
+        assert shown() == ["d1-s1", "d1-s2", "d2-s1", "d2-s2"]
+        page.locator("#sentences").screenshot(path=str(shot))
+    assert shot.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n" and shot.stat().st_size > 20_000
+    print(f"screenshot of the sentence list: {shot}")

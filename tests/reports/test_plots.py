@@ -6,7 +6,8 @@ import struct
 
 from report_samples import tiny_report
 
-from trainer.reports.plots import DPI, ROLE_PLOT_SIZE, config_styles, learning_curve_plot, role_f1_plot
+from trainer.reports.plots import (DPI, ROLE_PLOT_SIZE, SQUARE_SIZE, config_styles, learning_curve_plot,
+                                   precision_recall_plot, reliability_plot, role_f1_plot)
 
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
 
@@ -44,11 +45,11 @@ def test_learning_curve_plot_is_none_without_a_curve() -> None:
     assert learning_curve_plot(report) is None
 
 
-def test_learning_curve_plot_is_deterministic_and_two_rows_for_five_panels() -> None:
+def test_learning_curve_plot_is_deterministic_and_two_rows_for_six_panels() -> None:
     first = learning_curve_plot(tiny_report(curve=True))
     second = learning_curve_plot(tiny_report(curve=True))
     assert first is not None and first == second
-    # micro + four roles = five panels, three to a row: 3 x 3.4 in wide, 2 x 2.7 in high, at 100 dpi
+    # micro + four roles + trigger = six panels, three to a row: 3 x 3.4 in wide, 2 x 2.7 in high, at 100 dpi
     assert png_size(first) == (1020, 540)
 
 
@@ -56,3 +57,23 @@ def test_config_styles_follow_report_order_and_cover_curve_only_configs() -> Non
     report = tiny_report(curve=True)
     report["learning_curve"]["systems"]["gamma"] = report["learning_curve"]["systems"]["beta"]
     assert config_styles(report) == {"alpha": ("#0072b2", "o"), "beta": ("#e69f00", "s"), "gamma": ("#009e73", "D")}
+
+
+def test_learning_curve_plot_draws_the_interval_bands() -> None:
+    report = tiny_report(curve=True)
+    without = tiny_report(curve=True)
+    for points in without["learning_curve"]["systems"].values():
+        for point in points:
+            point.pop("intervals")
+    assert learning_curve_plot(report) != learning_curve_plot(without)
+
+
+def test_reliability_and_precision_recall_plots_are_fixed_size_pngs_and_none_without_confidences() -> None:
+    system = tiny_report()["systems"][0]
+    for plot in (reliability_plot, precision_recall_plot):
+        png = plot(system)
+        assert png is not None and png == plot(tiny_report()["systems"][0])
+        assert png_size(png) == (round(SQUARE_SIZE[0] * DPI), round(SQUARE_SIZE[1] * DPI)) == (560, 420)
+    bare = dict(system, calibration={"trigger": {"instances": 0, "without_confidence": 3, "ece": None, "bins": []}},
+                thresholds={"trigger": {"gold": 3, "points": [], "best": None}})
+    assert reliability_plot(bare) is None and precision_recall_plot(bare) is None

@@ -22,6 +22,15 @@ from trainer.errors import ConfigError, CorpusError
 from trainer.evaluation.scoring import UnitCounts, check_roles, counts_array, f1_arrays
 
 Statistic = Callable[[Sequence[UnitCounts]], float]
+MIN_INTERVAL_DOCS = 5  # below this many docs an interval is shown with a warning
+
+
+def interval_warning(docs: int) -> str | None:
+    """A warning for intervals computed from fewer than :data:`MIN_INTERVAL_DOCS` documents, else ``None``."""
+    if docs >= MIN_INTERVAL_DOCS:
+        return None
+    return (f"the intervals come from only {docs} doc(s) (fewer than {MIN_INTERVAL_DOCS}): resampling so few "
+            "documents says little about other texts; read them as rough")
 
 
 def _check(n_units: int, samples: int, confidence: float) -> None:

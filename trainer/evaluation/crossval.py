@@ -22,6 +22,7 @@ from trainer.corpus.records import Record
 from trainer.errors import ConfigError
 from trainer.evaluation.folds import FoldPlan
 from trainer.features.extract import Featurizer
+from trainer.models.explain import SpanKey, span_explanations
 from trainer.models.extractor import MotionExtractor
 from trainer.models.training import ParsedAuxiliary, parse_auxiliary, parser_for, with_auxiliary
 from trainer.parsing.parse import parse_records
@@ -41,6 +42,8 @@ class FoldOutput:
     train_seconds: float
     predict_seconds: float
     train_records: int  # of the target corpus; auxiliary corpora come on top
+    # record id -> (label, start, end) -> the features that weighed most for that predicted span (if asked for)
+    explanations: dict[str, dict[SpanKey, list[tuple[str, float]]]] = field(default_factory=dict)
 
 
 @dataclass
@@ -56,6 +59,10 @@ class SystemRun:
         out = [r for f in self.folds if f.repeat == repeat
                for r in (f.predicted_gold_triggers if gold_triggers else f.predicted)]
         return sorted(out, key=lambda r: r.id)
+
+    def explanations(self, repeat: int = 0) -> dict[str, dict[SpanKey, list[tuple[str, float]]]]:
+        """The span explanations of one repeat's held-out predictions, by record id (empty unless asked for)."""
+        return {rid: spans for f in self.folds if f.repeat == repeat for rid, spans in f.explanations.items()}
 
 
 @dataclass
@@ -81,14 +88,16 @@ def _unique_names(configs: Sequence[ExperimentConfig]) -> list[str]:
 
 def _run_fold(config: ExperimentConfig, featurizer: Featurizer, repeat: int, index: int, train: list[Record],
               train_docs: list[Doc], test: list[Record], test_docs: list[Doc],
-              domains: list[str] | None, target_records: int) -> FoldOutput:
+              domains: list[str] | None, target_records: int, explain: bool = False) -> FoldOutput:
     started = time.perf_counter()
     extractor = MotionExtractor(config, featurizer).fit(train, train_docs, domains=domains)
     trained_at = time.perf_counter()
     predicted = extractor.predict(test, test_docs)
     given = extractor.predict(test, test_docs, gold_triggers=True)
+    predicted_at = time.perf_counter()
     return FoldOutput(config.name, repeat, index, predicted, given, trained_at - started,
-                      time.perf_counter() - trained_at, target_records)
+                      predicted_at - trained_at, target_records,
+                      span_explanations(extractor, test_docs, predicted) if explain else {})
 
 
 def run_crossval(
@@ -102,8 +111,12 @@ def run_crossval(
     jobs: int = 1,
     scheduler: str | None = None,
     progress: Progress | None = None,
+    explain: bool = False,
 ) -> CrossvalRun:
     """Train every config on every fold's training docs and predict its held-out docs.
+
+    ``explain`` also keeps, for every predicted span, the features that weighed most for it
+    (:func:`trainer.models.explain.span_explanations`), for the HTML report.
 
     Each config's auxiliary corpora (``[auxiliary] corpora``) join every one of
     its training folds and are never scored; pass ``auxiliary`` to reuse them parsed.
@@ -148,10 +161,14 @@ def run_crossval(
                                                             [docs[i] for i in train_ids], config, auxiliary)
                 tasks.append(delayed(_run_fold)(
                     config, featurizers[config.name], plan.repeat, index, train, train_docs,
-                    [annotated[i] for i in test_ids], [docs[i] for i in test_ids], domains, len(train_ids)))
+                    [annotated[i] for i in test_ids], [docs[i] for i in test_ids], domains, len(train_ids), explain))
     if progress:
         progress(f"{len(annotated)} records parsed ({cached} from cache) in {parse_seconds:.1f} s; "
                  f"{len(tasks)} training runs ({len(configs)} config(s) x {sum(len(p.folds) for p in plans)} fold(s))")
+        for parsed_aux in auxiliary.values():
+            aux = parsed_aux.corpus
+            progress(f"auxiliary corpus '{aux.name}' ({aux.source}): {len(aux.records)} record(s) join every training "
+                     f"fold of the configs naming it, {aux.left_out} left out (doc or id shared with the corpus)")
     outputs = _dispatch(tasks, jobs=jobs, scheduler=scheduler, progress=progress)
     systems = [SystemRun(name, config, [o for o in outputs if o.config == name]) for name, config in zip(names, configs)]
     return CrossvalRun(annotated, list(plans), systems, parse_seconds, parsed, cached, list(docs), auxiliary)

@@ -468,6 +468,12 @@ def pair_by_id(gold: Sequence[Record], pred: Sequence[Record]) -> tuple[list[tup
     return pairs, unannotated
 
 
+def missing_predictions(gold: Sequence[Record], pred: Sequence[Record]) -> list[str]:
+    """Ids of annotated gold records that no predicted record answers (they would count as misses)."""
+    predicted = {record.id for record in pred}
+    return [record.id for record in gold if record.events is not None and record.id not in predicted]
+
+
 @dataclass
 class CorpusCounts:
     """Per-record counts of a corpus: ``by_record[id][key]`` with keys from :func:`score_keys`.

@@ -9,7 +9,8 @@ trial, so p is never 0). ``exact=True`` enumerates all ``2**n`` swaps instead,
 and p is ``count / 2**n`` (the identity is among them).
 
 Per-role p-values from :func:`compare_f1s` are not corrected for testing
-several roles at once.
+several roles at once; :func:`holm` corrects a family of p-values (a run
+corrects each score's p-values across its pairs of configs).
 """
 
 from __future__ import annotations
@@ -124,3 +125,22 @@ def compare_f1s(
         observed = float(f1_a[name]) - float(f1_b[name])
         out[name] = (observed, p_value(trial_a[name] - trial_b[name], observed, exact=exact))
     return out
+
+
+def holm(p_values: Sequence[float]) -> list[float]:
+    """Holm's step-down adjusted p-values, in the order given (Holm 1979).
+
+    With the m p-values sorted ascending, the i-th (from 1) becomes
+    ``min(1, max over j <= i of (m - j + 1) * p_(j))``; a hypothesis is
+    rejected at level alpha when its adjusted p-value is at most alpha. This
+    controls the family-wise error rate under any dependence between the tests.
+    """
+    values = np.asarray(p_values, dtype=float)
+    if values.size and (np.isnan(values).any() or values.min() < 0 or values.max() > 1):
+        raise ConfigError(f"p-values must lie in [0, 1], got {list(p_values)}", "pass p-values, not test statistics")
+    order = np.argsort(values, kind="stable")
+    m = len(values)
+    stepped = np.maximum.accumulate(values[order] * (m - np.arange(m)))
+    adjusted = np.empty(m)
+    adjusted[order] = np.minimum(stepped, 1.0)
+    return [float(x) for x in adjusted]

@@ -9,13 +9,18 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from itertools import combinations
 from statistics import mean, pstdev
-from typing import Any, Sequence
+from typing import TYPE_CHECKING, Any, Sequence
 
+from trainer.config import SCORING_MODES
 from trainer.evaluation.bootstrap import bootstrap_f1s
-from trainer.evaluation.crossval import CrossvalRun, SystemRun
+from trainer.evaluation.breakdown import breakdown, fold_breakdown
+from trainer.evaluation.confidence import confidence_report
 from trainer.evaluation.error_analysis import ErrorAnalysis, error_analysis
 from trainer.evaluation.scoring import CorpusCounts, Scores, count_corpus, merge_counts
-from trainer.evaluation.significance import compare_f1s
+from trainer.evaluation.significance import compare_f1s, holm
+
+if TYPE_CHECKING:  # only named in hints: scoring a file must not load the parser and the models
+    from trainer.evaluation.crossval import CrossvalRun, SystemRun
 
 
 @dataclass
@@ -45,15 +50,22 @@ class SystemSummary:
     errors: ErrorAnalysis
     counts: CorpusCounts = field(repr=False)
     timings: dict[str, float] = field(default_factory=dict)
+    interval_docs: int = 0  # documents the intervals resample (their number, whatever the unit)
+    breakdown: dict[str, Any] = field(default_factory=dict)  # both modes; per doc, book and fold
+    confidence: dict[str, Any] = field(default_factory=dict)  # calibration and thresholds of held-out confidences
 
 
 @dataclass
 class Comparison:
-    """A paired test between two configs: ``(F1 of a - F1 of b, p-value)`` per score name."""
+    """A paired test between two configs: ``(F1 of a - F1 of b, p-value)`` per score name.
+
+    ``holm``: each score's p-value Holm-adjusted over every pair of configs in the run.
+    """
 
     a: str
     b: str
     tests: dict[str, tuple[float, float]]
+    holm: dict[str, float] = field(default_factory=dict)
 
 
 @dataclass
@@ -101,33 +113,45 @@ def fold_spread(parts: Sequence[CorpusCounts]) -> dict[str, dict[str, Any]]:
 def summarise_system(run: CrossvalRun, system: SystemRun, settings: EvaluationSettings) -> SystemSummary:
     """Pooled scores, intervals, fold spread and errors of one config; only held-out records are scored."""
     roles = system.config.roles
-    parts = fold_counts(run, system, roles=roles, mode=settings.mode)
+    parts_by_mode = {mode: fold_counts(run, system, roles=roles, mode=mode) for mode in SCORING_MODES}
+    parts = parts_by_mode[settings.mode]
     counts = pool_folds(system, parts)
     given = pool_folds(system, fold_counts(run, system, roles=roles, mode=settings.mode, gold_triggers=True))
     intervals = bootstrap_f1s(counts.units(by=settings.bootstrap_unit), roles, samples=settings.bootstrap_samples,
                               seed=settings.seed, confidence=settings.confidence)
     first_repeat = system.predictions(min(f.repeat for f in system.folds))
     gold_by_id = {r.id: r for r in run.records}
+    first_gold = [gold_by_id[r.id] for r in first_repeat]
     return SystemSummary(
         name=system.name,
         scores=counts.scores(),
         gold_trigger_scores=given.scores(),
         intervals=intervals,
         fold_f1=fold_spread(parts),
-        errors=error_analysis([gold_by_id[r.id] for r in first_repeat], first_repeat, roles=roles),
+        errors=error_analysis(first_gold, first_repeat, roles=roles),
         counts=counts,
         timings={"train_seconds": round(sum(f.train_seconds for f in system.folds), 2),
                  "predict_seconds": round(sum(f.predict_seconds for f in system.folds), 2)},
+        interval_docs=len(set(counts.doc_of.values())),
+        breakdown={**breakdown({mode: pool_folds(system, p) for mode, p in parts_by_mode.items()}),
+                   "per_fold": fold_breakdown(parts_by_mode, [(f.repeat, f.fold) for f in system.folds])},
+        confidence=confidence_report(first_gold, first_repeat, roles=roles, mode=settings.mode),
     )
 
 
 def compare_systems(systems: Sequence[SystemSummary], settings: EvaluationSettings) -> list[Comparison]:
-    """A paired approximate randomization test, by document, for every pair of configs."""
+    """A paired approximate randomization test, by document, for every pair of configs.
+
+    Each score's p-values are then Holm-adjusted together across the pairs (one pair: unchanged).
+    """
     out = []
     for a, b in combinations(systems, 2):
         tests = compare_f1s(a.counts.units(by="doc"), b.counts.units(by="doc"), a.scores.roles,
                             trials=settings.trials, seed=settings.seed)
         out.append(Comparison(a.name, b.name, tests))
+    for name in out[0].tests if out else ():
+        for comparison, adjusted in zip(out, holm([c.tests[name][1] for c in out])):
+            comparison.holm[name] = adjusted
     return out
 
 

@@ -18,8 +18,7 @@ from trainer.errors import ConfigError
 from trainer.features.extract import TARGET_DOMAIN, Featurizer
 from trainer.models.rules import RuleRoleLabeller, RuleTriggerFinder
 from trainer.models.search import f1_of_sets, inner_folds, search_stage
-from trainer.models.sequence import marginal_spans
-from trainer.models.sequence import CRFTagger, LogisticTagger
+from trainer.models.sequence import CRFTagger, LogisticTagger, marginal_spans
 from trainer.models.stages import TRIGGER_LABEL, CandidateRoleLinker, SequenceRoleLabeller, SequenceTriggerFinder
 from trainer.parsing.align import AlignmentReport, span_to_tokens, tokens_to_span
 
@@ -165,8 +164,10 @@ class MotionExtractor:
             domains: Sequence[str] | None = None) -> "MotionExtractor":
         """Train both stages on annotated records (negatives included; unannotated ones refused).
 
-        ``domains`` (one per record: ``"target"`` or an auxiliary corpus's name)
-        switches on feature augmentation; predictions then use the target's copies.
+        ``domains`` names each record's corpus: ``"target"`` or an auxiliary
+        corpus's name. A tuned trigger threshold is then scored on target docs
+        only, and with ``[auxiliary] augment`` the features are augmented by
+        corpus (predictions then use the target's copies).
         """
         unannotated = [r.id for r in records if not r.is_annotated]
         if unannotated:
@@ -178,8 +179,9 @@ class MotionExtractor:
             self._search(records, docs, targets)
         if domains is not None and len(domains) != len(records):
             raise ConfigError(f"{len(domains)} domain names for {len(records)} records", "give one domain per record")
-        self.domains_ = sorted(set(domains)) if domains is not None else []
-        features = self._features(docs, domains)
+        augmenting = domains is not None and self.config.auxiliary.augment and set(domains) != {TARGET_DOMAIN}
+        self.domains_ = sorted(set(domains)) if augmenting else []
+        features = self._features(docs, domains if augmenting else None)
         if self.config.trigger_model.tune_threshold and isinstance(self.trigger_finder, SequenceTriggerFinder):
             self._tune_trigger_threshold(records, docs, targets, features, domains)
         self.trigger_finder.fit(docs, targets.triggers, features)

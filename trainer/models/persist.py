@@ -23,8 +23,6 @@ from importlib import metadata as importlib_metadata
 from pathlib import Path
 from typing import Any
 
-import joblib
-
 from trainer.errors import ModelFileError
 from trainer.outputs import output_lock, write_bytes
 
@@ -52,6 +50,8 @@ def digest_path(path: Path) -> Path:
 def save_model(model: Any, path: Path | str, metadata: dict[str, Any]) -> dict[str, Any]:
     """Write a model file and its digest atomically; return the metadata as written."""
     path = Path(path)
+    import joblib  # here, not at the top: reports read library_versions without loading joblib
+
     payload = io.BytesIO()
     joblib.dump(model, payload, compress=3)
     meta = {"format_version": FORMAT_VERSION, "versions": library_versions(), **metadata,
@@ -133,6 +133,8 @@ def load_model(path: Path | str) -> LoadedModel:
     if differing:
         listed = ", ".join(f"{k} {old} -> {new}" for k, (old, new) in sorted(differing.items()))
         warnings.warn(f"{path}: written with other library versions ({listed}); predictions may differ", stacklevel=2)
+    import joblib
+
     try:
         model = joblib.load(io.BytesIO(payload))
     except Exception as exc:  # a verified file whose payload is still not a pickle joblib can read

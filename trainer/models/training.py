@@ -43,9 +43,10 @@ def parse_auxiliary(sources: Sequence[str], *, target: Sequence[Record], nlp: La
 
 def with_auxiliary(records: Sequence[Record], docs: Sequence[Doc], config: ExperimentConfig,
                    auxiliary: dict[str, ParsedAuxiliary]) -> tuple[list[Record], list[Doc], list[str] | None]:
-    """The training set of one config: the target's records plus its auxiliary corpora, and domains to augment by.
+    """The training set of one config: the target's records plus its auxiliary corpora, and each record's corpus.
 
-    Domains are ``None`` unless the config asks for feature augmentation and names auxiliary corpora.
+    The corpus names (``"target"`` or the auxiliary corpus's name, one per record) are ``None`` when the
+    config names no auxiliary corpus.
     """
     records, docs = list(records), list(docs)
     domains = [TARGET_DOMAIN] * len(records)
@@ -54,8 +55,7 @@ def with_auxiliary(records: Sequence[Record], docs: Sequence[Doc], config: Exper
         records += parsed.corpus.records
         docs += parsed.docs
         domains += [parsed.corpus.name] * len(parsed.docs)
-    augmenting = config.auxiliary.augment and bool(config.auxiliary.corpora)
-    return records, docs, domains if augmenting else None
+    return records, docs, domains if config.auxiliary.corpora else None
 
 
 @dataclass

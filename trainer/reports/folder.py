@@ -3,15 +3,16 @@
 from __future__ import annotations
 
 from pathlib import Path
-from typing import Any, Sequence
+from typing import TYPE_CHECKING, Any, Sequence
 
 from trainer.corpus.jsonl import write_jsonl
-from trainer.evaluation.crossval import CrossvalRun
 from trainer.evaluation.summary import RunSummary
-from trainer.reports.html import html_report
 from trainer.reports.json_report import dump_json, report_dict, run_info
 from trainer.reports.markdown import markdown_summary
 from trainer.outputs import output_lock, write_text
+
+if TYPE_CHECKING:  # only named in hints (see trainer.evaluation.summary)
+    from trainer.evaluation.crossval import CrossvalRun
 
 REPORT_JSON = "report.json"
 RUN_INFO_JSON = "run-info.json"
@@ -36,5 +37,8 @@ def write_report_folder(
         dump_json(report, folder / REPORT_JSON)
         dump_json(run_info(run, summary, seconds), folder / RUN_INFO_JSON)
         write_text(folder / SUMMARY_MD, markdown_summary(report))
-        write_text(folder / REPORT_HTML, html_report(report, run.records, predictions))
+        from trainer.reports.html import html_report  # plots need matplotlib: loaded only when a report is written
+
+        explanations = {system.name: system.explanations() for system in run.systems}
+        write_text(folder / REPORT_HTML, html_report(report, run.records, predictions, explanations=explanations))
     return report

@@ -3,14 +3,17 @@
 :func:`html_report` reads the report dict of :mod:`trainer.reports.json_report`
 (the same numbers as ``report.json`` and ``summary.md``), the gold records and
 each config's held-out predictions, and returns the page as a string. The page
-needs nothing else: the CSS is inline, there is no script, the figures of
-:mod:`trainer.reports.plots` are embedded as ``data:image/png;base64`` URIs,
-and every piece of text is escaped with :func:`html.escape`.
+needs nothing else: the CSS is inline, the one script (filtering and paging
+the sentence list) is inline, the figures of :mod:`trainer.reports.plots` are
+embedded as ``data:image/png;base64`` URIs, and every piece of text is
+escaped with :func:`html.escape`.
 
 Sections: the run's settings; the figures; per config the score table
-(``id="scores-<config>"``), the roles given gold triggers and the error
-analysis; the paired comparisons; the learning curve; and the held-out
-sentences (``id="sentences"``), gold and predicted spans highlighted.
+(``id="scores-<config>"``), both matching modes, per book, doc and fold,
+calibration and thresholds, the roles given gold triggers and the error
+analysis; the paired comparisons; the learning curve; and every held-out
+sentence (``id="sentences"``), gold and predicted spans highlighted,
+filterable by config, doc, role and error kind, in pages.
 
 Highlighting: the text is cut at every span boundary, so a piece covered by
 several spans (a trigger inside a path, two roles on the same words) is one
@@ -24,14 +27,16 @@ from __future__ import annotations
 
 import base64
 import html
+import json
 import re
 from dataclasses import dataclass
 from typing import Any, Iterable, Mapping, Sequence
 
 from trainer.corpus.records import Record
-from trainer.reports.plots import learning_curve_plot, role_f1_plot
+from trainer.evaluation.error_analysis import classify_record
+from trainer.reports.plots import learning_curve_plot, precision_recall_plot, reliability_plot, role_f1_plot
 
-MAX_SENTENCES = 400
+PAGE_SIZE = 50
 TRIGGER = "trigger"
 NONE = "none"
 SIGNIFICANT = 0.05
@@ -107,8 +112,11 @@ ol.sentences > li { padding: .5rem 0 .6rem; border-bottom: 1px solid var(--rule)
 .lines .tally .good { color: var(--good); font-weight: 600; }
 .missed-list { font-size: .88em; line-height: 1.9; }
 .missed-list::before { content: "missed: "; color: var(--bad); font-weight: 600; }
-#only-differences:checked ~ ol.sentences > li.agree { display: none; }
-label.filter { display: inline-block; margin: .3rem 0; cursor: pointer; }
+form.filters { display: flex; flex-wrap: wrap; gap: .4rem 1rem; align-items: center; margin: .6rem 0;
+                padding: .5rem .8rem; border: 1px solid var(--rule); border-radius: 4px; }
+form.filters select, form.filters button { font: inherit; }
+p.warning { background: #fbede3; border-left: 4px solid var(--bad); padding: .35rem .7rem; }
+details.breakdown summary { cursor: pointer; font-weight: 600; margin: .4rem 0; }
 """
 
 
@@ -323,7 +331,10 @@ def system_section(report: dict[str, Any], system: dict[str, Any]) -> str:
         + score_table(report, system)
         + '<p class="note">Pooled over all held-out folds; CI: bootstrap interval by '
         + f"{_e(report['settings']['bootstrap_unit'])}; fold mean ± sd: F1 of each fold scored on its own.</p>"
+        + warning(system.get("interval_warning"))
         + (f'<ul class="note">{notes}</ul>' if notes else "")
+        + breakdown_section(report, system)
+        + confidence_section(system)
         + "<h3>Roles given the gold triggers</h3><p class=\"note\">The same held-out folds with the gold "
         + f"triggers handed to the role labeller (micro F1 {_f(given['micro']['f1'])}): role errors apart from "
         + "trigger errors.</p>"
@@ -331,6 +342,86 @@ def system_section(report: dict[str, Any], system: dict[str, Any]) -> str:
         + error_tables(report, system)
         + "</section>"
     )
+
+
+def warning(text: str | None) -> str:
+    """A warning paragraph (``class="warning"``), or nothing."""
+    return f'<p class="warning">Warning: {_e(text)}</p>' if text else ""
+
+
+def _modes(group: Mapping[str, Any]) -> list[str]:
+    return [mode for mode in ("exact", "overlap") if mode in group]
+
+
+def matching_table(report: dict[str, Any], system: dict[str, Any]) -> str:
+    """Precision, recall and F1 under exact and overlap matching side by side (``class="matching"``)."""
+    matching = system.get("matching")
+    if not matching:
+        return ""
+    modes = _modes(matching)
+    rows = []
+    for name in [*report["roles"], "micro", "trigger"]:
+        cells = [_f(score[key]) for mode in modes
+                 for score in [matching[mode]["roles"].get(name) or matching[mode][name]]
+                 for key in ("precision", "recall", "f1")]
+        rows.append(_row(name, cells, numeric=[True] * len(cells), css="pooled" if name in ("micro", "trigger") else ""))
+    head = [("score", False)] + [(f"{mode} {key}", True) for mode in modes for key in ("P", "R", "F1")]
+    return "<h3>Exact and overlap matching</h3>" + _table(head, rows, attrs=' class="matching"')
+
+
+def group_table(label: str, groups: Mapping[str, Mapping[str, Any]], css: str) -> str:
+    """One row per doc, book or fold: records, gold, micro and trigger P/R/F1 in each mode."""
+    if not groups:
+        return ""
+    modes = _modes(next(iter(groups.values())))
+    rows = []
+    for name, group in groups.items():
+        first = group[modes[0]]
+        cells = [str(first["records"]), str(first["micro"]["gold"]), str(first["trigger"]["gold"])]
+        cells += [_f(group[mode][key]["f1"]) for mode in modes for key in ("micro", "trigger")]
+        rows.append(_row(name, cells, numeric=[True] * len(cells)))
+    head = [(label, False), ("records", True), ("gold roles", True), ("gold triggers", True)]
+    head += [(f"{key} F1 {mode}", True) for mode in modes for key in ("micro", "trigger")]
+    return _table(head, rows, attrs=f' class="{css}"')
+
+
+def breakdown_section(report: dict[str, Any], system: dict[str, Any]) -> str:
+    """Both matching modes, then per book, per doc and per fold (each table folds open)."""
+    folds = {f"repeat {f['repeat']} fold {f['fold']}": f for f in system.get("per_fold", [])}
+    parts = [("book", system.get("per_book", {}), "per-book"), ("doc", system.get("per_doc", {}), "per-doc"),
+             ("fold", folds, "per-fold")]
+    details = "".join(f'<details class="breakdown" open><summary>Per {title} ({len(groups)})</summary>'
+                      f"{group_table(title, groups, css)}</details>" for title, groups, css in parts if groups)
+    return (matching_table(report, system)
+            + ("<h3>Per book, doc and fold</h3><p class=\"note\">The same held-out counts grouped by book (doc name "
+               "without its trailing number), by doc and by fold; each mode's groups add up to its pooled counts.</p>"
+               + details if details else ""))
+
+
+def confidence_section(system: dict[str, Any]) -> str:
+    """Reliability diagram and ECE, precision-recall curves and the F1-optimal thresholds of held-out confidences."""
+    calibration, thresholds = system.get("calibration") or {}, system.get("thresholds") or {}
+    reliability, pr = reliability_plot(system), precision_recall_plot(system)
+    if reliability is None and pr is None:
+        return ""
+    rows = []
+    for label, item in calibration.items():
+        best = (thresholds.get(label) or {}).get("best") or {}
+        cells = [str(item["instances"]), "" if item["ece"] is None else _f(item["ece"]),
+                 _f(best["threshold"]) if best else "", _f(best["precision"]) if best else "",
+                 _f(best["recall"]) if best else "", _f(best["f1"]) if best else ""]
+        rows.append(_row(label, cells, numeric=[True] * len(cells)))
+    head = [("predictions", False), ("with confidence", True), ("ECE", True), ("F1-optimal threshold", True),
+            ("precision", True), ("recall", True), ("F1", True)]
+    figures = "".join(f'<figure><img src="{png_data_uri(png)}" alt="{_e(alt)}"></figure>'
+                      for png, alt in ((reliability, "Reliability diagram: share correct against mean confidence"),
+                                       (pr, "Precision against recall as the confidence threshold falls"))
+                      if png is not None)
+    return ("<h3>Confidence: calibration and thresholds</h3><p class=\"note\">Held-out predictions of the first "
+            "repeat. Reliability: 10 equal-width confidence bins; ECE is the instance-weighted mean gap between "
+            "share correct and mean confidence. Thresholds: keeping predictions at or above a confidence; recall "
+            "counts every gold instance.</p>"
+            + _table(head, rows, attrs=' class="confidence"') + f'<div class="tables">{figures}</div>')
 
 
 # ---------------------------------------------------------------- comparisons and learning curve
@@ -344,14 +435,18 @@ def comparisons_section(report: dict[str, Any]) -> str:
     for comparison in report["comparisons"]:
         for name, test in comparison["tests"].items():
             css = " significant" if test["p_value"] < SIGNIFICANT else ""
+            holm = test.get("p_holm")
+            holm_css = " significant" if holm is not None and holm < SIGNIFICANT else ""
             rows.append(f"<tr><td>{_e(comparison['a'])}</td><td>{_e(comparison['b'])}</td><td>{_e(name)}</td>"
                         f"<td class=\"num\">{test['difference']:+.3f}</td>"
-                        f"<td class=\"num{css}\">{test['p_value']:.4f}</td></tr>")
-    head = [("A", False), ("B", False), ("score", False), ("F1(A) − F1(B)", True), ("p", True)]
+                        f"<td class=\"num{css}\">{test['p_value']:.4f}</td>"
+                        f"<td class=\"num{holm_css}\">{'' if holm is None else f'{holm:.4f}'}</td></tr>")
+    head = [("A", False), ("B", False), ("score", False), ("F1(A) − F1(B)", True), ("p", True), ("p (Holm)", True)]
     return ('<section id="comparisons"><h2>Paired comparisons</h2>'
             f"<p class=\"note\">Approximate randomization by document, {report['settings']['trials']} trials. "
-            f"p below {SIGNIFICANT} in bold; the p-values of the many scores are not corrected for multiple "
-            "comparisons.</p>" + _table(head, rows, attrs=' class="comparisons"') + "</section>")
+            f"p below {SIGNIFICANT} in bold. p (Holm): each score's p-values adjusted together over every pair of "
+            "configs (Holm 1979), so that testing many pairs does not inflate the chance of a false finding; "
+            "the raw p-values are not corrected.</p>" + _table(head, rows, attrs=' class="comparisons"') + "</section>")
 
 
 def learning_curve_section(report: dict[str, Any]) -> str:
@@ -362,18 +457,23 @@ def learning_curve_section(report: dict[str, Any]) -> str:
     curve = report["learning_curve"]
     names = ["micro", *report["roles"], "trigger"]
     rows = []
+    warnings = sorted({p["interval_warning"] for points in curve["systems"].values() for p in points
+                       if p.get("interval_warning")})
     for system, points in curve["systems"].items():
         for point in points:
-            cells = "".join(f'<td class="num">{_f(point["f1"][n])}</td>' if n in point["f1"] else "<td></td>"
-                            for n in names)
+            cells = "".join(f'<td class="num">{_f(point["f1"][n])}<br><span class="muted">'
+                            f'{_interval(point.get("intervals", {}).get(n))}</span></td>'
+                            if n in point["f1"] else "<td></td>" for n in names)
             rows.append(f"<tr><td>{_e(system)}</td><td class=\"num\">{point['share']:.0%}</td>"
                         f"<td class=\"num\">{point['train_records']:g}</td>{cells}</tr>")
     head = [("config", False), ("share of training docs", True), ("mean training records", True)]
     head += [(f"F1 {n}", True) for n in names]
     return ('<section id="learning-curve"><h2>Learning curve</h2><figure>'
-            f'<img src="{png_data_uri(png)}" alt="Micro and per-role F1 against mean training records, a line per config">'
-            "<figcaption>Each fold's training docs cut to a share (test docs unchanged); pooled held-out F1.</figcaption>"
-            "</figure>" + _table(head, rows, attrs=' class="curve"') + "</section>")
+            f'<img src="{png_data_uri(png)}" alt="Micro, per-role and trigger F1 against mean training records, a line per config">'
+            "<figcaption>Each fold's training docs cut to a share (test docs unchanged; 100% is the full training "
+            "set); pooled held-out F1, shaded: bootstrap interval.</figcaption>"
+            "</figure>" + "".join(warning(w) for w in warnings) + _table(head, rows, attrs=' class="curve"')
+            + "</section>")
 
 
 # ---------------------------------------------------------------- highlighted sentences
@@ -496,21 +596,110 @@ def legend(roles: Sequence[str]) -> str:
     return f'<div class="legend">{"".join(items)}</div>'
 
 
-def select_sentences(gold: Sequence[Record], predictions: Mapping[str, Sequence[Record]]) -> list[Record]:
-    """Annotated gold records that have gold events or predicted events from any config, in gold order."""
-    predicted_ids = {r.id for records in predictions.values() for r in records if r.events}
-    return [r for r in gold if r.is_annotated and (r.events or r.id in predicted_ids)]
+def sentence_errors(record: Record, predictions: Mapping[str, Mapping[str, Record]],
+                    roles: Sequence[str]) -> list[tuple[str, str, str]]:
+    """``(config, role or "trigger", kind)`` of every instance of one sentence, per config, sorted and unique.
+
+    Role instances get the kinds of :func:`~trainer.evaluation.error_analysis.classify_record` (a
+    ``wrong_role`` pair under both its roles); trigger spans are ``correct``, ``missed`` or ``spurious``.
+    """
+    out: set[tuple[str, str, str]] = set()
+    gold_triggers = {tuple(e.trigger) for e in record.events or ()}
+    for name, records in predictions.items():
+        predicted = records.get(record.id) or record.with_events(())
+        for item in classify_record(record, predicted, roles=roles):
+            out.update((name, side[1], item.kind) for side in (item.gold, item.pred) if side is not None)
+        pred_triggers = {tuple(e.trigger) for e in predicted.events or ()}
+        out.update((name, TRIGGER, kind) for kind, spans in (("correct", gold_triggers & pred_triggers),
+                                                             ("missed", gold_triggers - pred_triggers),
+                                                             ("spurious", pred_triggers - gold_triggers)) if spans)
+    return sorted(out)
+
+
+def _option(value: str, label: str) -> str:
+    return f'<option value="{_e(value)}">{_e(label)}</option>'
+
+
+def filter_form(configs: Sequence[str], docs: Sequence[str], roles: Sequence[str], page_size: int) -> str:
+    """The filters of the sentence list (config, doc, role, kind), the page size and the pager."""
+    selects = [("config", "config", configs), ("doc", "doc", docs), ("role", "role or trigger", [*roles, TRIGGER])]
+    html_selects = "".join(
+        f'<label>{_e(label)} <select name="{name}">{_option("", "any")}'
+        + "".join(_option(v, v) for v in values) + "</select></label>" for name, label, values in selects)
+    kinds = _option("", "any") + _option("error", "any error") + "".join(
+        _option(kind, kind.replace("_", " ")) for kind in KIND_NOTES)
+    sizes = "".join(f'<option value="{n}"{" selected" if n == page_size else ""}>{n}</option>'
+                    for n in sorted({page_size, 25, 50, 100, 200}))
+    return (f'<form id="sentence-filter" class="filters">{html_selects}'
+            f'<label>kind <select name="kind">{kinds}</select></label>'
+            f'<label>per page <select name="size">{sizes}</select></label>'
+            '<button type="button" id="page-previous">previous</button>'
+            '<button type="button" id="page-next">next</button>'
+            '<span id="page-status" class="muted" aria-live="polite"></span></form>')
+
+
+FILTER_SCRIPT = """
+(function () {
+  var form = document.getElementById("sentence-filter");
+  var items = Array.prototype.slice.call(document.querySelectorAll("ol.sentences > li"));
+  var status = document.getElementById("page-status");
+  var previous = document.getElementById("page-previous"), next = document.getElementById("page-next");
+  var page = 0;
+  function value(name) { return form.elements[name].value; }
+  function keep(li) {
+    var doc = value("doc"), config = value("config"), role = value("role"), kind = value("kind");
+    if (doc && li.getAttribute("data-doc") !== doc) { return false; }
+    if (!config && !role && !kind) { return true; }
+    return JSON.parse(li.getAttribute("data-errors")).some(function (e) {
+      return (!config || e[0] === config) && (!role || e[1] === role) &&
+             (!kind || e[2] === kind || (kind === "error" && e[2] !== "correct"));
+    });
+  }
+  function show() {
+    var size = parseInt(value("size"), 10), kept = items.filter(keep);
+    var pages = Math.max(1, Math.ceil(kept.length / size));
+    page = Math.min(Math.max(page, 0), pages - 1);
+    items.forEach(function (li) { li.hidden = true; });
+    kept.slice(page * size, (page + 1) * size).forEach(function (li) { li.hidden = false; });
+    status.textContent = kept.length === 0 ? "no sentence matches" :
+      "sentences " + (page * size + 1) + "–" + Math.min(kept.length, (page + 1) * size) + " of " +
+      kept.length + " matching (page " + (page + 1) + " of " + pages + ")";
+    previous.disabled = page === 0;
+    next.disabled = page >= pages - 1;
+  }
+  form.addEventListener("change", function () { page = 0; show(); });
+  previous.addEventListener("click", function () { page -= 1; show(); });
+  next.addEventListener("click", function () { page += 1; show(); });
+  show();
+})();
+"""
+
+
+Explanations = Mapping[str, Mapping[str, Mapping[tuple[str, int, int], Sequence[tuple[str, float]]]]]
+
+
+def with_explanations(spans: dict[tuple[str, int, int], str],
+                      weighed: Mapping[tuple[str, int, int], Sequence[tuple[str, float]]]) -> dict[tuple[str, int, int], str]:
+    """Hover texts of predicted spans with the features that weighed most for each, where known."""
+    return {key: title + (" · weighed most: " + ", ".join(f"{f} {w:+.2f}" for f, w in weighed[key])
+                          if weighed.get(key) else "") for key, title in spans.items()}
 
 
 def sentences_section(report: dict[str, Any], gold: Sequence[Record], predictions: Mapping[str, Sequence[Record]],
-                      *, max_sentences: int = MAX_SENTENCES) -> str:
-    """Each held-out sentence: the gold line and one line per config, spans highlighted (see :func:`highlight`)."""
+                      *, page_size: int = PAGE_SIZE, explanations: Explanations | None = None) -> str:
+    """Every held-out sentence: the gold line and one line per config, spans highlighted (see :func:`highlight`).
+
+    Each ``<li>`` carries its doc (``data-doc``) and its instances' ``(config, role, kind)`` as JSON
+    (``data-errors``, see :func:`sentence_errors`); a small inline script filters and pages the list.
+    Without script every sentence is listed. ``explanations`` (config -> record id -> span key -> features)
+    adds to a predicted span's hover text the features that weighed most for it.
+    """
+    explanations = explanations or {}
     roles = report["roles"]
     by_config = {name: {r.id: r for r in records} for name, records in predictions.items()}
-    chosen = select_sentences(gold, predictions)
-    shown, left_out = chosen[:max_sentences], max(0, len(chosen) - max_sentences)
+    chosen = [r for r in gold if r.is_annotated]
     items = []
-    for record in shown:
+    for record in chosen:
         text = record.text
         gold_spans = span_marks(record, roles, text)
         gold_marks = [Mark(k[1], k[2], k[0], None, title) for k, title in gold_spans.items()]
@@ -518,44 +707,50 @@ def sentences_section(report: dict[str, Any], gold: Sequence[Record], prediction
                  '<div class="tally"></div>']
         agrees = True
         for name, records in by_config.items():
-            pred_spans = span_marks(records.get(record.id), roles, text)
+            pred_spans = with_explanations(span_marks(records.get(record.id), roles, text),
+                                           explanations.get(name, {}).get(record.id, {}))
             body, missed, tally = config_line(text, gold_spans, pred_spans, roles)
             agrees &= tally.agrees
             missed_div = f'<div class="missed-list">{missed}</div>' if missed else ""
             lines.append(f'<div class="who">{_e(name)}</div>'
                          f'<div class="text pred" data-config="{_e(name)}">{body}{missed_div}</div>'
                          f'<div class="tally">{_tally_html(tally)}</div>')
-        items.append(f'<li class="{"agree" if agrees else "differs"}"><div class="sid">{_e(record.id)} '
+        errors = json.dumps([list(e) for e in sentence_errors(record, by_config, roles)], ensure_ascii=False)
+        items.append(f'<li class="{"agree" if agrees else "differs"}" data-doc="{_e(record.doc)}" '
+                     f'data-errors="{_e(errors)}"><div class="sid">{_e(record.id)} '
                      f'· {_e(record.doc)}</div><div class="lines">{"".join(lines)}</div></li>')
-    note = (f"Showing the first {len(shown)} of {len(chosen)} held-out sentences with gold or predicted events; "
-            f"{left_out} left out to keep the page small (every prediction is in <code>predictions/</code>)."
-            if left_out else f"All {len(chosen)} held-out sentences with gold or predicted events.")
+    docs = sorted({r.doc for r in chosen})
     return ('<section id="sentences"><h2>Held-out sentences</h2>'
-            f'<p class="note">{note} Each config line shows that config\'s held-out prediction (first repeat). '
+            f'<p class="note">All {len(chosen)} annotated held-out sentences, {page_size} to a page; filter them by '
+            "config, doc, role (or trigger) and error kind: a sentence stays when one of its instances matches "
+            "every filter set. Each config line shows that config's held-out prediction (first repeat). "
             "Spans are compared one by one here; whether an argument is attached to the right trigger is "
-            "scored in the tables, not drawn.</p>"
-            + legend(roles)
-            + '<input type="checkbox" id="only-differences"> <label class="filter" for="only-differences">'
-            "show only sentences where a config differs from gold</label>"
-            + f'<ol class="sentences">{"".join(items)}</ol></section>')
+            "scored in the tables and in the kinds (wrong trigger link), not drawn. Hovering over a predicted "
+            "span shows what it is and, for learned models, the features that weighed most for it (their "
+            "contributions to the label's score). Without JavaScript every sentence is listed.</p>"
+            + legend(roles) + filter_form(list(by_config), docs, roles, page_size)
+            + f'<ol class="sentences">{"".join(items)}</ol>'
+            + f"<script>{FILTER_SCRIPT}</script></section>")
 
 
 # ---------------------------------------------------------------- the page
 
 
 def html_report(report: dict[str, Any], gold: Sequence[Record], predictions: dict[str, list[Record]], *,
-                max_sentences: int = MAX_SENTENCES) -> str:
+                page_size: int = PAGE_SIZE, explanations: Explanations | None = None) -> str:
     """The whole report as one standalone HTML page.
 
     ``report`` is the dict of :func:`trainer.reports.json_report.report_dict`;
     ``gold`` the run's gold records; ``predictions`` maps each config name to
-    its held-out predicted records (matched to gold by ``id``). At most
-    ``max_sentences`` sentences are shown, and the page says how many were left out.
+    its held-out predicted records (matched to gold by ``id``). Every annotated
+    sentence is on the page, ``page_size`` to a page once the script runs. ``explanations`` (from
+    :meth:`trainer.evaluation.crossval.SystemRun.explanations`, per config) adds the features that
+    weighed most for each predicted span to its hover text.
     """
     body = (header_section(report) + figures_section(report)
             + "".join(system_section(report, s) for s in report["systems"])
             + comparisons_section(report) + learning_curve_section(report)
-            + sentences_section(report, gold, predictions, max_sentences=max_sentences))
+            + sentences_section(report, gold, predictions, page_size=page_size, explanations=explanations))
     return ("<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">"
             "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">"
             f"<title>itinerant report: {_e(', '.join(s['name'] for s in report['systems']))}</title>"

@@ -13,16 +13,19 @@ import json
 import platform
 import time
 from pathlib import Path
-from typing import Any, Sequence
+from typing import TYPE_CHECKING, Any, Sequence
 
 from trainer.corpus.reader import fingerprint
-from trainer.evaluation.crossval import CrossvalRun
+from trainer.evaluation.bootstrap import interval_warning
 from trainer.evaluation.summary import RunSummary, SystemSummary
 from trainer.models.persist import library_versions
 from trainer.outputs import write_text
 
+if TYPE_CHECKING:  # only named in hints (see trainer.evaluation.summary)
+    from trainer.evaluation.crossval import CrossvalRun
+
 SCHEMA = "itinerant.evaluation-report"
-SCHEMA_VERSION = 1
+SCHEMA_VERSION = 2
 
 
 def _rounded(pair: tuple[float, float]) -> list[float]:
@@ -36,7 +39,11 @@ def system_to_dict(system: SystemSummary, config: dict[str, Any]) -> dict[str, A
         "scores": system.scores.to_dict(),
         "gold_trigger_scores": system.gold_trigger_scores.to_dict(),
         "intervals": {name: _rounded(pair) for name, pair in system.intervals.items()},
+        "interval_docs": system.interval_docs,
+        "interval_warning": interval_warning(system.interval_docs),
         "fold_f1": system.fold_f1,
+        **system.breakdown,
+        **{key: system.confidence[key] for key in ("calibration", "thresholds") if key in system.confidence},
         "errors": system.errors.to_dict(),
         "predictions": f"predictions/{system.name}.jsonl",
         "predictions_gold_triggers": f"predictions/{system.name}.gold-triggers.jsonl",
@@ -65,7 +72,9 @@ def report_dict(run: CrossvalRun, summary: RunSummary, *, corpus_files: Sequence
         "systems": [system_to_dict(s, configs[s.name].to_dict()) for s in summary.systems],
         "comparisons": [
             {"a": c.a, "b": c.b,
-             "tests": {name: {"difference": round(d, 6), "p_value": round(p, 6)} for name, (d, p) in c.tests.items()}}
+             "tests": {name: {"difference": round(d, 6), "p_value": round(p, 6),
+                              "p_holm": round(c.holm[name], 6) if name in c.holm else None}
+                       for name, (d, p) in c.tests.items()}}
             for c in summary.comparisons
         ],
         "learning_curve": learning_curve,

@@ -121,21 +121,25 @@ def _curve_panel(axes: Axes, curve: dict[str, Any], name: str, styles: dict[str,
         ys = [p["f1"][name] for p in points]
         colour, marker = styles[system]
         axes.plot(xs, ys, marker=marker, color=colour, linewidth=1.2, markersize=4, label=system)
+        bands = [p["intervals"][name] for p in points if name in p.get("intervals", {})]
+        if len(bands) == len(points):
+            axes.fill_between(xs, [b[0] for b in bands], [b[1] for b in bands], color=colour, alpha=0.15, linewidth=0)
     axes.set_title(name)
     axes.set_ylim(0, 1)
     axes.set_xlabel("mean training records")
 
 
 def learning_curve_plot(report: dict[str, Any]) -> bytes | None:
-    """Micro F1 and each role's F1 against the mean number of training records, a line per config.
+    """Micro F1, each role's F1 and trigger F1 against the mean number of training records, a line per config.
 
     ``None`` when the report has no learning curve. One panel per score
-    (``micro`` first, then the roles), three panels to a row.
+    (``micro`` first, then the roles, then ``trigger``), three panels to a
+    row; a shaded band is each point's bootstrap interval when the curve has them.
     """
     curve = report.get("learning_curve")
     if not curve or not curve.get("systems"):
         return None
-    names = ["micro", *report["roles"]]
+    names = ["micro", *report["roles"], "trigger"]
     rows = -(-len(names) // CURVE_COLUMNS)
     columns = min(len(names), CURVE_COLUMNS)
     styles = config_styles(report)
@@ -153,3 +157,61 @@ def learning_curve_plot(report: dict[str, Any]) -> bytes | None:
         figure.suptitle("Learning curve (pooled held-out F1)")
         return _png(figure)
 
+
+
+SQUARE_SIZE = (5.6, 4.2)  # inches: a [0, 1] x [0, 1] plot and its legend
+
+
+def _square_png(figure: Figure, axes: Axes, *, xlabel: str, ylabel: str, title: str, top: float = 1.0) -> bytes:
+    """Axes over [0, 1] x [0, top] with their labels, title and the legend outside: the PNG bytes."""
+    axes.set_xlim(0, 1)
+    axes.set_ylim(0, top)
+    axes.set_xlabel(xlabel)
+    axes.set_ylabel(ylabel)
+    axes.set_title(title)
+    figure.legend(loc="outside right upper")
+    return _png(figure)
+
+
+def reliability_plot(system: dict[str, Any]) -> bytes | None:
+    """A reliability diagram of one config's held-out confidences: share correct against mean confidence per bin.
+
+    One line per label of ``system["calibration"]`` (trigger, each role, all roles), a marker per
+    non-empty bin; the diagonal is perfect calibration. ``None`` when no prediction had a confidence.
+    """
+    labels = [label for label, item in (system.get("calibration") or {}).items() if item["instances"]]
+    if not labels:
+        return None
+    with _context():
+        figure = Figure(figsize=SQUARE_SIZE, dpi=DPI, layout="constrained")
+        axes = figure.add_subplot()
+        axes.plot([0, 1], [0, 1], color="#999999", linewidth=0.8, linestyle=":", label="perfect")
+        for index, label in enumerate(labels):
+            item = system["calibration"][label]
+            axes.plot([b["mean_confidence"] for b in item["bins"]], [b["accuracy"] for b in item["bins"]],
+                      marker=MARKERS[index % len(MARKERS)], color=CONFIG_COLOURS[index % len(CONFIG_COLOURS)],
+                      linewidth=1.2, markersize=4, label=f"{label} (ECE {item['ece']:.3f})")
+        return _square_png(figure, axes, xlabel="mean confidence in bin", ylabel="share correct",
+                           title=f"Reliability of held-out confidences: {system['name']}")
+
+
+def precision_recall_plot(system: dict[str, Any]) -> bytes | None:
+    """Precision against recall as the confidence threshold falls, one line per label of ``system["thresholds"]``.
+
+    The F1-optimal threshold of each line is ringed. ``None`` when no prediction had a confidence.
+    """
+    labels = [label for label, item in (system.get("thresholds") or {}).items() if item["points"]]
+    if not labels:
+        return None
+    with _context():
+        figure = Figure(figsize=SQUARE_SIZE, dpi=DPI, layout="constrained")
+        axes = figure.add_subplot()
+        for index, label in enumerate(labels):
+            item = system["thresholds"][label]
+            colour = CONFIG_COLOURS[index % len(CONFIG_COLOURS)]
+            axes.plot([p["recall"] for p in item["points"]], [p["precision"] for p in item["points"]], color=colour,
+                      linewidth=1.2, label=f"{label} (best t={item['best']['threshold']:.2f})")
+            axes.plot([item["best"]["recall"]], [item["best"]["precision"]], marker=MARKERS[index % len(MARKERS)],
+                      color=colour, markersize=7, markerfacecolor="none")
+        return _square_png(figure, axes, xlabel="recall", ylabel="precision", top=1.02,
+                           title=f"Precision and recall by confidence threshold: {system['name']}")

@@ -10,24 +10,26 @@ import json
 import time
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any, Sequence
+from typing import TYPE_CHECKING, Any, Sequence
 
-from trainer.config import ExperimentConfig, add_auxiliary, load_config
+from trainer.config import SCORING_MODES, ExperimentConfig, add_auxiliary, load_config
 from trainer.corpus.reader import Corpus, expand_paths, fingerprint, read_corpus
 from trainer.corpus.records import Record
 from trainer.errors import ConfigError, CorpusError, UnreadableInputError
-from trainer.evaluation.bootstrap import bootstrap_f1s
-from trainer.evaluation.crossval import Progress, run_crossval
-from trainer.evaluation.curve import learning_curve
+from trainer.evaluation.bootstrap import bootstrap_f1s, interval_warning
+from trainer.evaluation.breakdown import breakdown
+from trainer.evaluation.confidence import confidence_report
 from trainer.evaluation.error_analysis import error_analysis
-from trainer.evaluation.extrapolate import extrapolate_curve, extrapolation_report
 from trainer.evaluation.folds import FoldPlan, fixed_split, grouped_kfold, leave_one_book_out, leave_one_doc_out
-from trainer.evaluation.scoring import count_corpus
+from trainer.evaluation.scoring import count_corpus, missing_predictions
 from trainer.evaluation.significance import compare_f1s
 from trainer.evaluation.summary import EvaluationSettings, summarise
 from trainer.outputs import check_output
 from trainer.reports.folder import REPORT_JSON, write_report_folder
 from trainer.reports.json_report import dump_json, library_versions
+
+if TYPE_CHECKING:  # scoring and contrasting saved runs load neither the parser nor the models
+    from trainer.evaluation.crossval import Progress
 
 
 @dataclass
@@ -89,6 +91,10 @@ def crossval_report(
 
     ``auxiliary`` corpora (and ``augment``) are added to every config's own ``[auxiliary]`` settings.
     """
+    from trainer.evaluation.crossval import run_crossval
+    from trainer.evaluation.curve import learning_curve
+    from trainer.evaluation.extrapolate import extrapolate_curve, extrapolation_report
+
     check_output(folder, inputs=[*corpus_paths, *config_paths, *test_paths], folder=True, what="report folder")
     started = time.perf_counter()
     configs, corpus, test_docs = load_inputs(corpus_paths, config_paths, test_paths=test_paths, skip_bad=skip_bad,
@@ -103,12 +109,12 @@ def crossval_report(
     if unreviewed and progress:
         progress(f"left out {len(unreviewed)} unreviewed pre-annotated record(s) (provenance 'predicted')")
     plans = plan_folds(records, options)
-    run = run_crossval(records, configs, plans, jobs=jobs, scheduler=scheduler, progress=progress)
+    run = run_crossval(records, configs, plans, jobs=jobs, scheduler=scheduler, progress=progress, explain=True)
     summary = summarise(run, settings)
     curve = None
     if curve_shares:
         curve = learning_curve(records, configs, plans, shares=curve_shares, settings=settings, jobs=jobs,
-                               scheduler=scheduler, docs=run.docs, progress=progress)
+                               scheduler=scheduler, docs=run.docs, progress=progress, full_run=run)
         curve["extrapolation"] = extrapolation_report(extrapolate_curve(curve, seed=settings.seed))
     files = [str(p) for p in expand_paths(list(corpus_paths) + list(test_paths))]
     return write_report_folder(folder, run, summary, corpus_files=files, seconds=time.perf_counter() - started,
@@ -116,25 +122,44 @@ def crossval_report(
 
 
 def score_report(gold_path: Path, pred_path: Path, *, roles: Sequence[str], settings: EvaluationSettings,
-                 folder: Path | None = None) -> dict[str, Any]:
-    """Score any system's predictions (canonical JSONL) against gold with the same scorer as cross-validation."""
+                 folder: Path | None = None, allow_missing: bool = False) -> dict[str, Any]:
+    """Score any system's predictions (canonical JSONL) against gold with the same scorer as cross-validation.
+
+    Annotated gold records with no predicted record are refused, naming them,
+    unless ``allow_missing``: then they count as misses and the report lists them.
+    """
     if folder is not None:
         check_output(folder, inputs=[gold_path, pred_path], folder=True, what="score folder")
     gold = read_corpus([gold_path], roles=tuple(roles)).records
     predicted = read_corpus([pred_path], roles=tuple(roles)).records
-    counts = count_corpus(gold, predicted, roles=roles, mode=settings.mode)
+    missing = missing_predictions(gold, predicted)
+    if missing and not allow_missing:
+        named = ", ".join(repr(i) for i in missing[:5]) + (f" and {len(missing) - 5} more" if len(missing) > 5 else "")
+        raise CorpusError(f"{pred_path}: {len(missing)} annotated gold record(s) of {gold_path} have no prediction: "
+                          f"{named}", "predict every gold record, or pass --allow-missing (allow_missing=True) "
+                          "to count their gold instances as missed")
+    by_mode = {mode: count_corpus(gold, predicted, roles=roles, mode=mode) for mode in SCORING_MODES}
+    counts = by_mode[settings.mode]
     scores = counts.scores()
+    docs = len(set(counts.doc_of.values()))
+    confidence = confidence_report(gold, predicted, roles=roles, mode=settings.mode)
     report = {
         "schema": "itinerant.score-report",
-        "schema_version": 1,
+        "schema_version": 2,
         "gold": {"file": str(gold_path), "fingerprint": fingerprint(gold), "records": len(gold)},
         "predictions": {"file": str(pred_path), "records": len(predicted)},
+        "missing_predictions": {"count": len(missing), "ids": missing},
         "settings": settings.to_dict(),
         "versions": library_versions(),
         "scores": scores.to_dict(),
         "intervals": {k: [round(lo, 6), round(hi, 6)] for k, (lo, hi) in bootstrap_f1s(
             counts.units(by=settings.bootstrap_unit), roles, samples=settings.bootstrap_samples,
             seed=settings.seed, confidence=settings.confidence).items()},
+        "interval_docs": docs,
+        "interval_warning": interval_warning(docs),
+        **breakdown(by_mode),
+        "calibration": confidence["calibration"],
+        "thresholds": confidence["thresholds"],
         "errors": error_analysis(gold, predicted, roles=roles).to_dict(),
     }
     if folder is not None:

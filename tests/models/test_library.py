@@ -1,0 +1,157 @@
+"""Extraction over a library of books: the same files serially, on worker processes and on a Dask cluster;
+a failing book counted while the others are written; a killed run resumed to the same bytes."""
+
+from __future__ import annotations
+
+import os
+import signal
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+import pytest
+from typer.testing import CliRunner
+
+from tests.conftest import DEMO
+from trainer.cli import app
+from trainer.config import config_from_dict
+from trainer.corpus.reader import read_corpus
+from trainer.errors import ConfigError, OutputError
+from trainer.models.apply import extract_file, partial_path
+from trainer.models.library import DONE, SKIPPED, extract_library, find_books, names_a_library
+from trainer.models.training import fit_extractor, load_extractor, save_extractor
+from trainer.parsing.text import paragraphs, read_text_file
+
+CHAPTER = DEMO / "unannotated" / "delacott-survey-3.txt"
+LETTERS = DEMO / "test" / "lisle-letters-1.jsonl"
+runner = CliRunner()
+
+
+@pytest.fixture(scope="module")
+def model_file(tmp_path_factory, nlp, demo_train) -> Path:
+    config = config_from_dict({"parser": {"use_cache": False}, "trigger_model": {"kind": "rules"},
+                               "role_model": {"kind": "rules"}})
+    records = read_corpus([demo_train / "quarne-salt-1.jsonl"]).records
+    path = tmp_path_factory.mktemp("model") / "rules.itin"
+    save_extractor(fit_extractor(records, config, nlp=nlp), path, records=records, training_seconds=0.0)
+    return path
+
+
+def make_library(folder: Path, *, books: int = 4, bad: bool = False) -> Path:
+    """Text books cut from the demo chapter (whole paragraphs), a JSONL book in a subfolder, optionally bad ones."""
+    parts = [p for _, p in paragraphs(read_text_file(CHAPTER))]
+    folder.mkdir(parents=True)
+    size = -(-len(parts) // books)
+    for n in range(books):
+        (folder / f"book-{n}.txt").write_text("\n\n".join(parts[n * size:(n + 1) * size]) + "\n", encoding="utf-8")
+    (folder / "letters").mkdir()
+    (folder / "letters" / "letters.jsonl").write_bytes(LETTERS.read_bytes())
+    if bad:
+        (folder / "book-latin1.txt").write_bytes("We rode to Caddow by the caf\u00e9.\n".encode("latin-1"))
+        (folder / "letters" / "broken.jsonl").write_text('{"id": "x-1", "doc": "x", "text": "We left.\n', encoding="utf-8")
+    return folder
+
+
+def files(folder: Path) -> dict[str, bytes]:
+    return {p.name: p.read_bytes() for p in sorted(folder.iterdir()) if p.suffix == ".jsonl"}
+
+
+def test_books_are_found_in_path_order_and_named_after_their_files(tmp_path):
+    library = make_library(tmp_path / "lib")
+    books = find_books([library], tmp_path / "out")
+    assert [b.source.relative_to(library).as_posix() for b in books] == [
+        "book-0.txt", "book-1.txt", "book-2.txt", "book-3.txt", "letters/letters.jsonl"]
+    assert [b.target.name for b in books] == ["book-0.jsonl", "book-1.jsonl", "book-2.jsonl", "book-3.jsonl", "letters.jsonl"]
+    assert [b.input_format for b in books] == ["text"] * 4 + ["jsonl"]
+    (tmp_path / "other").mkdir()
+    (tmp_path / "other" / "book-0.jsonl").write_text("")
+    with pytest.raises(ConfigError, match="would both be written to"):
+        find_books([library, tmp_path / "other"], tmp_path / "out")
+
+
+@pytest.mark.parametrize("inputs, output, library", [
+    (["book.txt"], "out.jsonl", False),   # today's single extraction
+    (["book.txt", "b2.txt"], "out", True),
+    (["lib"], "out", True),               # a folder of books
+    (["book.txt"], "out", True),          # an output folder (no extension)
+    (["book.txt"], "existing", True),     # an existing folder
+])
+def test_which_calls_are_library_runs(tmp_path, inputs, output, library):
+    (tmp_path / "lib").mkdir()
+    (tmp_path / "existing").mkdir()
+    (tmp_path / "book.txt").write_text("We left.\n")
+    assert names_a_library([tmp_path / p for p in inputs], tmp_path / output) is library
+
+
+@pytest.mark.slow
+def test_a_library_gives_the_same_files_serially_on_two_processes_and_on_a_dask_cluster(model_file, nlp, tmp_path):
+    distributed = pytest.importorskip("dask.distributed")
+    library = make_library(tmp_path / "lib")
+    seen = []
+    serial = extract_library(model_file, [library], tmp_path / "serial", table=tmp_path / "all.tsv",
+                             on_book=lambda result, done, total: seen.append((result.status, done, total)))
+    assert [r.status for r in serial.results] == [DONE] * 5
+    assert seen == [(DONE, n, 5) for n in range(1, 6)]
+    expected = files(tmp_path / "serial")
+    assert list(expected) == ["book-0.jsonl", "book-1.jsonl", "book-2.jsonl", "book-3.jsonl", "letters.jsonl"]
+    # each book's file is what a single extraction of that file writes
+    trained, _ = load_extractor(model_file)
+    extract_file(trained, library / "book-2.txt", tmp_path / "single.jsonl", nlp=nlp)
+    assert (tmp_path / "single.jsonl").read_bytes() == expected["book-2.jsonl"]
+    assert sum(r.sentences for r in serial.results) == sum(len(v.splitlines()) for v in expected.values())
+    assert all(r.words > 0 for r in serial.results)
+    # the combined table holds every book's rows, in book order
+    table = (tmp_path / "all.tsv").read_text(encoding="utf-8").splitlines()
+    docs = [line.split("\t")[1] for line in table[1:]]
+    assert docs == sorted(docs, key=["book-0", "book-1", "book-2", "book-3", "lisle-letters-1"].index)
+
+    extract_library(model_file, [library], tmp_path / "jobs2", jobs=2)
+    assert files(tmp_path / "jobs2") == expected
+    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None) as cluster:
+        extract_library(model_file, [library], tmp_path / "dask", scheduler=cluster.scheduler_address)
+    assert files(tmp_path / "dask") == expected
+
+
+@pytest.mark.slow
+def test_a_bad_book_is_reported_and_counted_and_the_others_are_written(model_file, tmp_path):
+    """Exit 1 (some data was bad, as for skipped records elsewhere), each failure named with its cause."""
+    library = make_library(tmp_path / "lib", books=2, bad=True)
+    result = runner.invoke(app, ["extract", str(model_file), str(library), "-o", str(tmp_path / "out"), "--progress"])
+    assert result.exit_code == 1, result.output
+    assert "5/5 books" in result.output and "words/s" in result.output  # the progress display's last state
+    assert "book-latin1.txt: not UTF-8 text" in result.output
+    assert "broken.jsonl" in result.output and "failed" in result.output
+    assert "3 book(s) extracted, 0 already done, 2 failed" in result.output
+    assert sorted(files(tmp_path / "out")) == ["book-0.jsonl", "book-1.jsonl", "letters.jsonl"]
+    written = read_corpus([tmp_path / "out" / "letters.jsonl"]).records
+    assert [r.id for r in written] == [r.id for r in read_corpus([LETTERS]).records]
+
+
+@pytest.mark.slow
+def test_a_library_run_killed_midway_resumes_to_the_same_files(model_file, tmp_path):
+    library = make_library(tmp_path / "lib", books=2)
+    extract_library(model_file, [library], tmp_path / "whole", batch_size=4)
+    killed = tmp_path / "killed"
+    command = [sys.executable, "-m", "trainer.cli", "extract", str(model_file), str(library), "-o", str(killed),
+               "--batch-size", "4", "--no-progress"]
+    process = subprocess.Popen(command, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+    torn = partial_path(killed / "book-1.jsonl")
+    deadline = time.monotonic() + 300
+    while not (torn.exists() and torn.stat().st_size > 0) and time.monotonic() < deadline and process.poll() is None:
+        time.sleep(0.02)
+    os.kill(process.pid, signal.SIGKILL)
+    process.wait()
+    assert (killed / "book-0.jsonl").exists() and torn.exists(), "the run was not caught between two books"
+    summary = extract_library(model_file, [library], killed, resume=True, batch_size=4)
+    assert [r.status for r in summary.results] == [SKIPPED, DONE, DONE]
+    assert summary.results[1].resumed > 0
+    assert files(killed) == files(tmp_path / "whole")
+    assert not torn.exists()
+
+
+def test_a_library_is_written_to_a_folder(tmp_path):
+    library = make_library(tmp_path / "lib", books=1)
+    with pytest.raises(OutputError, match="written to a folder"):
+        extract_library(tmp_path / "never-read.itin", [library], tmp_path / "out.jsonl")
+    assert not (tmp_path / "out.jsonl").exists()

@@ -1,0 +1,265 @@
+"""Extraction over a library: many books (plain text and JSONL, files and folders) into one folder.
+
+Each book is extracted by :func:`trainer.models.apply.extract_file` into
+``<folder>/<book>.jsonl``, exactly as a run on that one file would write it,
+so the files do not depend on how the books were shared out: one after the
+other here, over local worker processes (``jobs``), or as one task per book on
+a Dask cluster (``scheduler``; the workers must see the same paths, e.g. on a
+shared disk). Each worker loads the model file itself, checked against its
+digest, once per process.
+
+A book that cannot be extracted (unreadable, not UTF-8, bad records) is
+reported with its error and counted; the others go on. With ``resume``, a
+book whose output is complete and was made from the same input (its
+``.input`` side file) is skipped, a torn one is continued from its partial
+file, and the rest are extracted.
+"""
+
+from __future__ import annotations
+
+import json
+import time
+from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
+from dataclasses import dataclass, field
+from multiprocessing import get_context
+from pathlib import Path
+from typing import Any, Callable, Iterator, Sequence
+
+from trainer.errors import ConfigError, ItinerantError, ModelFileError, OutputError, UnreadableInputError
+from trainer.outputs import check_output, output_lock
+
+BOOK_SUFFIXES = {".txt": "text", ".jsonl": "jsonl"}
+DONE, SKIPPED, FAILED = "extracted", "already done", "failed"
+
+
+@dataclass(frozen=True)
+class Book:
+    """One input file and where its records go."""
+
+    source: Path
+    target: Path
+    input_format: str
+
+
+@dataclass
+class BookResult:
+    """What happened to one book (``words``: words of the sentences written by this run)."""
+
+    book: Book
+    status: str
+    sentences: int = 0
+    events: int = 0
+    roles: int = 0
+    words: int = 0
+    resumed: int = 0
+    skipped: list[str] = field(default_factory=list)
+    error: str | None = None
+
+
+@dataclass
+class LibrarySummary:
+    """Every book's result, in book order, and the combined table if one was written."""
+
+    results: list[BookResult]
+    table: Path | None = None
+    seconds: float = 0.0
+
+    @property
+    def failed(self) -> list[BookResult]:
+        return [r for r in self.results if r.status == FAILED]
+
+    def count(self, status: str) -> int:
+        return sum(r.status == status for r in self.results)
+
+
+BookDone = Callable[[BookResult, int, int], None]  # a finished book, books finished so far, books in all
+
+
+def names_a_library(inputs: Sequence[Path], output: Path) -> bool:
+    """Whether an ``extract`` call is a library run: several inputs, a folder in or out, or an output without extension.
+
+    One input file with an output file name (``out.jsonl``) is a single extraction into that file.
+    """
+    single = len(inputs) == 1 and not Path(inputs[0]).is_dir()
+    return not single or output.is_dir() or (not output.exists() and not output.suffix)
+
+
+def find_books(inputs: Sequence[Path], folder: Path, *, input_format: str | None = None) -> list[Book]:
+    """The books named by files and folders (folders searched for .txt and .jsonl files), in path order.
+
+    Outputs are named after the books (``<stem>.jsonl`` in ``folder``); two books with one name are refused.
+    """
+    sources: list[Path] = []
+    for path in map(Path, inputs):
+        if path.is_dir():
+            sources.extend(sorted(p for p in path.rglob("*") if p.is_file() and p.suffix in BOOK_SUFFIXES
+                                  and not p.name.startswith(".")))
+        elif path.is_file():
+            sources.append(path)
+        else:
+            raise UnreadableInputError(f"{path}: no such file or folder", "check the input paths")
+    if not sources:
+        raise UnreadableInputError(f"no .txt or .jsonl books in {', '.join(map(str, inputs))}",
+                                   "name book files or folders holding them")
+    books: dict[str, Book] = {}
+    for source in sources:
+        fmt = input_format or BOOK_SUFFIXES.get(source.suffix, "text")
+        book = Book(source, folder / f"{source.stem}.jsonl", fmt)
+        if book.target.name in books and not _same(books[book.target.name].source, source):
+            raise ConfigError(f"{books[book.target.name].source} and {source} would both be written to {book.target}",
+                              "rename one of the books, or extract them into different folders")
+        books.setdefault(book.target.name, book)
+    return list(books.values())
+
+
+def _same(a: Path, b: Path) -> bool:
+    return a.resolve() == b.resolve()
+
+
+_LOADED: dict[tuple[str, str], Any] = {}  # model file and digest -> (trained extractor, parser), one per process
+
+
+def _model(model_path: str) -> tuple[Any, Any]:
+    from trainer.models.persist import digest_path
+    from trainer.models.training import load_extractor, parser_for
+
+    key = (model_path, digest_path(Path(model_path)).read_text(encoding="ascii").split()[0])
+    if key not in _LOADED:
+        trained, _ = load_extractor(model_path)
+        _LOADED.clear()
+        _LOADED[key] = (trained, parser_for(trained.config))
+    return _LOADED[key]
+
+
+def _written_words(target: Path, skip: int) -> int:
+    """Words of the sentences in an output after its first ``skip`` records (those this run wrote)."""
+    with open(target, encoding="utf-8") as handle:
+        return sum(len(json.loads(line)["text"].split()) for number, line in enumerate(handle) if number >= skip)
+
+
+def finished(book: Book) -> bool:
+    """Whether the book's output is complete and was made from this very input (its side file says so)."""
+    from trainer.models.apply import input_note, input_note_path
+
+    try:
+        recorded = json.loads(input_note_path(book.target).read_text(encoding="utf-8"))
+    except (OSError, ValueError):
+        return False
+    return book.target.is_file() and recorded == input_note(book.source, book.input_format, book.source.stem)
+
+
+def extract_book(model_path: str, book: Book, *, resume: bool = False, batch_size: int = 256,
+                 skip_bad: bool = False) -> BookResult:
+    """Extract one book; its errors come back in the result, never raised (a library goes on without it)."""
+    from trainer.models.apply import extract_file
+
+    try:
+        if resume and finished(book):
+            return BookResult(book, SKIPPED)
+        with open(book.source, "rb") as handle:
+            handle.read(1)
+        trained, nlp = _model(model_path)
+        summary = extract_file(trained, book.source, book.target, input_format=book.input_format,
+                               doc_name=book.source.stem, batch_size=batch_size, nlp=nlp, skip_bad=skip_bad,
+                               resume=resume)
+    except ItinerantError as exc:
+        return BookResult(book, FAILED, error=str(exc))
+    except OSError as exc:
+        return BookResult(book, FAILED, error=f"{book.source}: cannot be read ({exc.strerror or exc})")
+    return BookResult(book, DONE, sentences=summary.sentences, events=summary.events, roles=summary.roles,
+                      words=_written_words(book.target, summary.resumed), resumed=summary.resumed,
+                      skipped=list(summary.skipped))
+
+
+def _serial(model_path: str, books: Sequence[Book], options: dict[str, Any]) -> Iterator[BookResult]:
+    for book in books:
+        yield extract_book(model_path, book, **options)
+
+
+def _processes(model_path: str, books: Sequence[Book], options: dict[str, Any], jobs: int) -> Iterator[BookResult]:
+    # spawn, not fork: the parent may run a progress thread, and each worker loads its own parser anyway
+    with ProcessPoolExecutor(max_workers=jobs, mp_context=get_context("spawn")) as pool:
+        pending = {pool.submit(extract_book, model_path, book, **options) for book in books}
+        while pending:
+            done, pending = wait(pending, return_when=FIRST_COMPLETED)
+            for future in done:
+                yield future.result()
+
+
+def _cluster(model_path: str, books: Sequence[Book], options: dict[str, Any], scheduler: str) -> Iterator[BookResult]:
+    try:
+        from dask.distributed import Client, as_completed
+    except ImportError:
+        raise ConfigError("a Dask scheduler was given but dask.distributed is not installed",
+                          "install it with `pip install 'itinerant[cluster]'`") from None
+    try:
+        client = Client(scheduler, timeout="20s")
+    except (OSError, TimeoutError) as exc:
+        raise ConfigError(f"no Dask scheduler answers at {scheduler} ({exc})",
+                          "start one (`dask scheduler` and `dask worker ADDRESS`) or check the address") from None
+    with client:
+        futures = [client.submit(extract_book, model_path, book, pure=False, **options) for book in books]
+        for future in as_completed(futures):
+            yield future.result()
+
+
+def extract_library(
+    model_path: Path | str, inputs: Sequence[Path], folder: Path, *, jobs: int = 1, scheduler: str | None = None,
+    resume: bool = False, batch_size: int = 256, skip_bad: bool = False, input_format: str | None = None,
+    table: Path | None = None, on_book: BookDone | None = None,
+) -> LibrarySummary:
+    """Extract every book of ``inputs`` into ``folder`` (one ``<book>.jsonl`` each), optionally in parallel.
+
+    ``jobs`` local worker processes, or one task per book on the Dask cluster at
+    ``scheduler``; the files are the same either way. ``table`` also writes one
+    table (.csv or .tsv) of the events of every book extracted, in book order.
+    ``on_book`` hears of each book as it finishes.
+    """
+    from trainer.models.persist import digest_path, read_metadata
+
+    started = time.perf_counter()
+    model_path, folder = Path(model_path), Path(folder)
+    if jobs < 1:
+        raise ConfigError(f"--jobs {jobs}: at least one worker is needed", "e.g. --jobs 2")
+    if folder.suffix and not folder.is_dir():
+        raise OutputError(f"{folder}: a library is written to a folder, one file per book, but this names a file",
+                          "name a folder for -o (e.g. -o extracted), or give one input file")
+    check_output(folder, inputs=[model_path, *inputs], folder=True, what="output folder")
+    books = find_books(inputs, folder, input_format=input_format)
+    meta, _ = read_metadata(model_path)  # checked against its digest here, before any worker starts
+    if meta.get("kind") != "itinerant-extractor" or not meta.get("roles"):
+        raise ModelFileError(f"{model_path}: not an extractor written by `itinerant fit`",
+                             "name a file written by `itinerant fit`")
+    every_input = [model_path, digest_path(model_path), *(b.source for b in books)]
+    for book in books:
+        check_output(book.target, inputs=every_input, what="book output")
+    if table:
+        check_output(table, inputs=[*every_input, *(b.target for b in books)], what="event table")
+    folder.mkdir(parents=True, exist_ok=True)
+    options = {"resume": resume, "batch_size": batch_size, "skip_bad": skip_bad}
+    model = str(model_path.absolute())
+    with output_lock(folder):
+        runs = (_cluster(model, books, options, scheduler) if scheduler
+                else _processes(model, books, options, jobs) if jobs > 1 and len(books) > 1
+                else _serial(model, books, options))
+        by_target: dict[Path, BookResult] = {}
+        for result in runs:
+            by_target[result.book.target] = result
+            if on_book:
+                on_book(result, len(by_target), len(books))
+        summary = LibrarySummary([by_target[b.target] for b in books])
+        if table:
+            summary.table = _write_table(summary, table, tuple(meta["roles"]))
+    summary.seconds = time.perf_counter() - started
+    return summary
+
+
+def _write_table(summary: LibrarySummary, table: Path, roles: tuple[str, ...]) -> Path:
+    """One table of every extracted book's events, in book order (the format `extract --table` writes for one)."""
+    from trainer.corpus.convert.table import write_table
+    from trainer.corpus.reader import iter_records
+
+    records = (record for result in summary.results if result.status != FAILED
+               for record in iter_records(result.book.target, roles=roles))
+    write_table(records, table, roles=roles)
+    return table
