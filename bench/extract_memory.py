@@ -10,7 +10,6 @@ the demo chapter) and its peak resident memory is read from the kernel
 from __future__ import annotations
 
 import argparse
-import resource
 import subprocess
 import sys
 import tempfile

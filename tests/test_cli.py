@@ -220,3 +220,13 @@ def test_convert_of_a_bad_jsonl_file_names_no_option_convert_lacks(tmp_path):
     assert f"{source}:2: doc: must be a string, got int" in result.output
     assert "--skip-bad" not in result.output and "itinerant check" in result.output
     assert not (tmp_path / "a.tsv").exists()
+
+
+def test_a_missing_auxiliary_corpus_is_refused_before_any_work(tmp_path):
+    corpus = write(tmp_path / "a.jsonl", GOOD)
+    result = runner.invoke(app, ["fit", str(corpus), "--aux", str(tmp_path / "nope"), "-o", str(tmp_path / "m.itin")])
+    assert result.exit_code == 2
+    assert "no such auxiliary corpus" in result.output and "Traceback" not in result.output
+    assert "training" not in result.output and not (tmp_path / "m.itin").exists()
+    result = runner.invoke(app, ["crossval", str(corpus), "--aux", "packaged:atlas", "-o", str(tmp_path / "run")])
+    assert result.exit_code == 2 and "no packaged corpus named 'atlas'" in result.output

@@ -64,6 +64,8 @@ CASES = {
         ("suggest {d}/m.itin {d}/no.txt -o {d}/o.jsonl", "no such file"),
         ("merge {d}/c.jsonl -b {d}/no.jsonl -o {d}/o.jsonl", "no such file"),
         ("demo --data {d}/no -o {d}/run", "no such file"),
+        ("review {d}/no.jsonl --no-open", "no such file"),
+        ("agree {d}/no.jsonl {d}/c.jsonl", "no such file"),
     ],
     "folder for a file": [
         ("check {d}/empty", "folder holds no *.jsonl files"),
@@ -84,6 +86,8 @@ CASES = {
         ("suggest {d}/empty {d}/c.jsonl -o {d}/o.jsonl", "is a folder, not a model file"),
         ("suggest {d}/m.itin {d}/empty -o {d}/o.jsonl", "is a folder, not a file"),
         ("merge {d}/c.jsonl -b {d}/empty -o {d}/o.jsonl", "folder holds no *.jsonl files"),
+        ("review {d}/empty --no-open", "is a folder, not a file"),
+        ("agree {d}/empty {d}/c.jsonl", "folder holds no *.jsonl files"),
     ],
     "unwritable output": [
         ("convert {d}/c.jsonl -o {u}/o.tsv", "cannot write in /proc"),
@@ -101,6 +105,7 @@ CASES = {
         ("itinerary {d}/c.jsonl -o {u}/o.tsv", "cannot write in /proc"),
         ("suggest {d}/m.itin {d}/c.jsonl -o {u}/o.jsonl", "cannot write in /proc"),
         ("merge {d}/c.jsonl -b {d}/c.jsonl -o {u}/o.jsonl", "cannot write in /proc"),
+        ("agree {d}/c.jsonl {d}/c.jsonl -o {u}", "cannot write in /proc"),
     ],
     "output equal to an input": [
         ("convert {d}/c.jsonl -o {d}/c.jsonl", "also an input"),
@@ -116,6 +121,7 @@ CASES = {
         ("itinerary {d}/c.jsonl -o {d}/c.jsonl", "also an input"),
         ("suggest {d}/m.itin {d}/c.jsonl -o {d}/c.jsonl", "also an input"),
         ("merge {d}/c.jsonl -b {d}/c.jsonl -o {d}/c.jsonl", "also an input"),
+        ("agree {d}/c.jsonl {d}/c.jsonl -o {d}/c.jsonl", "also an input"),
         ("explain {d}/no.itin", "no such model file"),
     ],
 }
@@ -139,7 +145,7 @@ def test_every_command_is_covered():
     from typer.main import get_command
 
     mine = {"check", "convert", "fit", "extract", "crossval", "curve", "score", "contrast", "gate", "itinerary",
-            "suggest", "merge", "demo", "explain"}
+            "suggest", "merge", "demo", "explain", "review", "agree"}
     assert mine <= set(get_command(app).commands)
     assert covered == mine
 

@@ -191,11 +191,13 @@ def fit(
     The model file is checked to be writable (and not an input) before training starts.
     """
     from trainer.config import add_auxiliary, load_config
+    from trainer.corpus.auxiliary import check_sources
     from trainer.corpus.reader import expand_paths
     from trainer.models.persist import digest_path
     from trainer.outputs import check_output, output_lock
 
     cfg = add_auxiliary(load_config(config), aux, augment)
+    check_sources(cfg.auxiliary.corpora)
     auxiliary = [Path(c) for c in cfg.auxiliary.corpora if not c.startswith("packaged:")]
     inputs = [*corpus, *expand_paths(corpus), *([config] if config else []), *auxiliary, *expand_paths(auxiliary)]
     check_output(output, inputs=inputs, what="model file")
@@ -245,7 +247,7 @@ def extract(
     input_format: Annotated[Optional[str], typer.Option("--input-format", help="text or jsonl (default: by extension).")] = None,
     doc: Annotated[Optional[str], typer.Option(help="Document name for plain text (default: the file name).")] = None,
     batch_size: Annotated[int, typer.Option(help="Sentences per batch.")] = 256,
-    resume: Annotated[bool, typer.Option(help="Continue an interrupted run from OUTPUT.partial (or OUTPUT) after checking the input is the same.")] = False,
+    resume: Annotated[bool, typer.Option(help="Continue an interrupted run from OUTPUT.partial (or OUTPUT) after checking the input is the same; for a library, skip finished books and continue a torn one.")] = False,
     skip_bad: Annotated[bool, typer.Option(help="JSONL input: leave out records with errors (listed).")] = False,
     progress: Annotated[Optional[bool], typer.Option(help="Show a progress bar (default: when stderr is a terminal).")] = None,
     compare: Annotated[bool, typer.Option(help="JSONL input with events: score the predictions against them.")] = False,
@@ -254,9 +256,11 @@ def extract(
 ) -> None:
     """Apply a model to a book, a JSONL file or a whole library; offsets into a plain-text file are kept in each record's meta.
 
-    Several inputs, a folder, or an output folder (existing, or named without an extension) make a library run:
-    one output per book, a book that fails is reported and the others go on. Exit codes: 0 all written,
-    1 some books failed, 2 unusable input or output.
+    Several inputs, a folder, or an output folder (existing, or named without an extension) make a library run.
+
+    A library run writes one output per book; a book that fails is reported and the others go on.
+
+    Exit codes: 0 all written, 1 some books failed, 2 unusable input or output.
     """
     from trainer.errors import ConfigError
     from trainer.models.apply import check_source, extract_file
@@ -707,8 +711,11 @@ def agree(
 ) -> None:
     """Agreement between annotators: F1 of one against another, Cohen's (or Fleiss') kappa, and the disagreements."""
     from trainer.annotation.agreement import agreement_files
+    from trainer.outputs import check_output
     from trainer.reports.agreement import agreement_markdown, write_agreement
 
+    if output:
+        check_output(output, inputs=files, folder=True, what="agreement folder")
     result = agreement_files(files, roles=_roles(roles))
     typer.echo(agreement_markdown(result))
     if output:
@@ -732,7 +739,7 @@ def demo(
 
     say(f"== 1. checking the annotations in {data}")
     check([data / "train", data / "test"], roles=None, lemmas=True, pipeline=None, strict=False)
-    say("\n== 2. comparing CRF, logistic and rule extractors by 5-fold cross-validation grouped by journal")
+    say("\n== 2. comparing the default, logistic and rule extractors by 5-fold cross-validation grouped by journal")
     configs_used = [configs / "default.toml", configs / "logistic.toml", configs / "rules.toml"]
     report = crossval_report([data / "train"], configs_used, output / "crossval", progress=say)
     typer.echo(markdown_summary(report))

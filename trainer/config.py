@@ -189,6 +189,9 @@ def _check_value(path: str, value: Any, source: str) -> None:
         unknown = sorted(set(value) - set(FEATURE_GROUPS))
         if unknown:
             raise ConfigError(f"{source}: unknown feature group(s) {unknown}", f"use some of: {', '.join(FEATURE_GROUPS)}")
+    if path == "auxiliary.corpora" and any(not isinstance(v, str) or not v.strip() for v in value):
+        raise ConfigError(f"{source}: 'auxiliary.corpora' must list file or folder paths (or packaged:demo), got {value!r}",
+                          'e.g. corpora = ["packaged:demo", "../earlier/annotations"]')
     if path == "corpus.roles" and (not value or len(set(value)) != len(value)):
         raise ConfigError(f"{source}: 'corpus.roles' must be a non-empty list without repeats", "e.g. roles = [\"mover\", \"destination\"]")
     if path == "gate.role_tolerances":

@@ -189,7 +189,6 @@ def _overlap(a: tuple[int, int], b: tuple[int, int]) -> bool:
 
 def test_the_demo_corpus_against_a_copy_with_counted_changes(demo_train, tmp_path) -> None:
     original = read_corpus([demo_train]).records
-    by_id = {r.id: r for r in original}
     candidates = _single_event_records(original)
     # Changes, each on its own record: 3 roles deleted, 2 roles cut short by their first token, 2 roles relabelled
     # (to a role the event does not have), 1 event deleted, 1 event added on a word no trigger covers.

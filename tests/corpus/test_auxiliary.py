@@ -75,3 +75,10 @@ def test_config_paths_resolve_from_the_config_folder_and_command_line_ones_from_
     assert more.auxiliary.corpora == [str(tmp_path / "books" / "old"), "packaged:demo", str(tmp_path / "extra.jsonl")]
     assert (more.auxiliary.augment, config.auxiliary.augment) == (False, True)
     assert add_auxiliary(config_from_dict({})).auxiliary.corpora == []
+
+
+def test_auxiliary_corpora_must_be_paths() -> None:
+    with pytest.raises(ConfigError, match="'auxiliary.corpora' must list file or folder paths"):
+        config_from_dict({"auxiliary": {"corpora": ["packaged:demo", 3]}}, "x.toml")
+    with pytest.raises(ConfigError, match="'auxiliary.augment' must be bool"):
+        config_from_dict({"auxiliary": {"augment": "yes"}}, "x.toml")

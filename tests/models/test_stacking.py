@@ -9,7 +9,7 @@ from trainer.corpus.reader import read_corpus
 from trainer.evaluation.scoring import count_corpus
 from trainer.features.extract import DOMAIN_KEY
 from trainer.models.extractor import THRESHOLD_GRID, MotionExtractor
-from trainer.models.training import fit_extractor, parser_for
+from trainer.models.training import fit_extractor
 from trainer.parsing.parse import parse_records
 
 pytestmark = pytest.mark.slow

@@ -20,7 +20,7 @@ from typing import Any, Sequence
 
 from trainer.corpus.reader import fingerprint, read_corpus
 from trainer.corpus.records import DEFAULT_ROLES, Record
-from trainer.errors import ConfigError
+from trainer.errors import ConfigError, UnreadableInputError
 
 PACKAGED_PREFIX = "packaged:"
 # name -> (file inside trainer/data, what it is)
@@ -52,6 +52,16 @@ def packaged_corpus_path(name: str) -> Path:
         raise ConfigError(f"no packaged corpus named {name!r}",
                           f"use one of: {', '.join(PACKAGED_PREFIX + n for n in PACKAGED_CORPORA)}, or a path")
     return Path(str(resources.files("trainer").joinpath("data", PACKAGED_CORPORA[name][0])))
+
+
+def check_sources(sources: Sequence[str]) -> None:
+    """Refuse, before any work starts, a packaged name that does not exist or a path that is missing."""
+    for source in sources:
+        if source.startswith(PACKAGED_PREFIX):
+            packaged_corpus_path(source[len(PACKAGED_PREFIX):])
+        elif not Path(source).exists():
+            raise UnreadableInputError(f"{source}: no such auxiliary corpus (file or folder)",
+                                       "fix the path given with --aux or in [auxiliary] corpora")
 
 
 def _domain_name(source: str, taken: set[str]) -> str:

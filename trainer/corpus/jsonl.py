@@ -16,6 +16,18 @@ from trainer.errors import UnreadableInputError
 from trainer.outputs import atomic_output
 
 
+def read_text(path: Path, *, what: str = "a file") -> str:
+    """The whole text of an annotation file in UTF-8 (a byte-order mark dropped), or a located error."""
+    try:
+        return Path(path).read_text(encoding="utf-8-sig")
+    except FileNotFoundError:
+        raise UnreadableInputError(f"{path}: no such file", "check the path") from None
+    except IsADirectoryError:
+        raise UnreadableInputError(f"{path}: is a folder, not a file", f"name {what}") from None
+    except UnicodeDecodeError:
+        raise UnreadableInputError(f"{path}: not UTF-8 text", "re-save the file as UTF-8") from None
+
+
 def iter_lines(path: Path) -> Iterator[tuple[int, str]]:
     """Yield ``(line_number, line)`` for each non-blank line of a UTF-8 file.
 

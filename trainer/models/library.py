@@ -172,8 +172,11 @@ def extract_book(model_path: str, book: Book, *, resume: bool = False, batch_siz
 
 
 def _serial(model_path: str, books: Sequence[Book], options: dict[str, Any]) -> Iterator[BookResult]:
-    for book in books:
-        yield extract_book(model_path, book, **options)
+    try:
+        for book in books:
+            yield extract_book(model_path, book, **options)
+    finally:
+        _LOADED.clear()  # the caller's process keeps neither the model nor the parser after the run
 
 
 def _processes(model_path: str, books: Sequence[Book], options: dict[str, Any], jobs: int) -> Iterator[BookResult]:

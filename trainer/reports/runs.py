@@ -13,6 +13,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Any, Sequence
 
 from trainer.config import SCORING_MODES, ExperimentConfig, add_auxiliary, load_config
+from trainer.corpus.auxiliary import check_sources
 from trainer.corpus.reader import Corpus, expand_paths, fingerprint, read_corpus
 from trainer.corpus.records import Record
 from trainer.errors import ConfigError, CorpusError, UnreadableInputError
@@ -65,6 +66,7 @@ def load_inputs(corpus_paths: Sequence[Path], config_paths: Sequence[Path], *, t
     """Configs (defaults when none; ``auxiliary`` corpora added to each), the corpus (plus held-out test files),
     and the doc names of the test files."""
     configs = [add_auxiliary(load_config(p), auxiliary, augment) for p in config_paths or [None]]
+    check_sources([source for c in configs for source in c.auxiliary.corpora])
     roles = configs[0].roles
     if any(c.roles != roles for c in configs):
         raise ConfigError("configs use different role inventories", "compare configs with the same [corpus] roles")

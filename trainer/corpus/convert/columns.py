@@ -40,9 +40,10 @@ from pathlib import Path
 from typing import Any, Iterable
 
 from trainer.corpus.convert import Conversion, writable
+from trainer.corpus.jsonl import read_text
 from trainer.corpus.records import DEFAULT_ROLES, Event, Offsets, Record, RoleSpan
 from trainer.corpus.validate import StrictJSONError, record_problems, strict_loads
-from trainer.errors import CorpusError, UnreadableInputError
+from trainer.errors import CorpusError
 from trainer.outputs import write_text
 
 TRIGGER_LABEL = "V"
@@ -257,12 +258,7 @@ def read_columns(path: Path, *, roles: tuple[str, ...] = DEFAULT_ROLES) -> Conve
 
 def _blocks(path: Path) -> list[tuple[int, list[str]]]:
     """Groups of consecutive non-blank lines with the number of their first line."""
-    try:
-        content = path.read_text(encoding="utf-8-sig")
-    except FileNotFoundError:
-        raise UnreadableInputError(f"{path}: no such file", "check the path") from None
-    except UnicodeDecodeError:
-        raise UnreadableInputError(f"{path}: not UTF-8 text", "re-save the file as UTF-8") from None
+    content = read_text(path, what="a file of token columns")
     blocks: list[tuple[int, list[str]]] = []
     current: list[str] = []
     for number, line in enumerate(content.split("\n"), start=1):

@@ -18,9 +18,10 @@ import re
 from collections import defaultdict
 from pathlib import Path
 
+from trainer.corpus.jsonl import read_text
 from trainer.corpus.records import DEFAULT_ROLES, Event, Record, RoleSpan
 from trainer.corpus.validate import record_problems
-from trainer.errors import CorpusError, UnreadableInputError
+from trainer.errors import CorpusError
 
 _SPAN = re.compile(r"\[([^\[\]|]+)\|([^\[\]|]+)\]")
 _LABEL = re.compile(r"^(T|[a-z_]+)(\d+)$")
@@ -75,14 +76,7 @@ def read_inline(path: Path, roles: tuple[str, ...] = DEFAULT_ROLES) -> list[Reco
     doc = path.stem
     counters: dict[str, int] = defaultdict(int)
     records = []
-    try:
-        content = path.read_text(encoding="utf-8-sig")
-    except FileNotFoundError:
-        raise UnreadableInputError(f"{path}: no such file", "check the path") from None
-    except IsADirectoryError:
-        raise UnreadableInputError(f"{path}: is a folder, not a file", "name a file of inline markup") from None
-    except UnicodeDecodeError:
-        raise UnreadableInputError(f"{path}: not UTF-8 text", "re-save the file as UTF-8") from None
+    content = read_text(path, what="a file of inline markup")
     for number, raw in enumerate(content.splitlines(), start=1):
         line = raw.strip()
         if not line:
