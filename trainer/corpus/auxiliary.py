@@ -25,7 +25,7 @@ from trainer.errors import ConfigError, UnreadableInputError
 PACKAGED_PREFIX = "packaged:"
 # name -> (file inside trainer/data, what it is)
 PACKAGED_CORPORA: dict[str, tuple[str, str]] = {
-    "demo": ("demo-train.jsonl", "the invented demo corpus's training journals (demo_annotations/train, compiled by build_demo.py)"),
+    "demo": ("demo-train.jsonl", "the invented demo corpus's training journals, as in demo_annotations/train"),
 }
 
 
@@ -50,7 +50,8 @@ def packaged_corpus_path(name: str) -> Path:
     """The file of a packaged corpus, e.g. ``demo``."""
     if name not in PACKAGED_CORPORA:
         raise ConfigError(f"no packaged corpus named {name!r}",
-                          f"use one of: {', '.join(PACKAGED_PREFIX + n for n in PACKAGED_CORPORA)}, or a path")
+                          "use one of: " + "; ".join(f"{PACKAGED_PREFIX}{n} ({about})" for n, (_, about) in
+                                                     PACKAGED_CORPORA.items()) + "; or a path")
     return Path(str(resources.files("trainer").joinpath("data", PACKAGED_CORPORA[name][0])))
 
 
