@@ -33,10 +33,12 @@ def augment(features: groups.Features, domain: str) -> groups.Features:
     a target corpus plus auxiliary ones learns shared weights and per-domain
     corrections; predictions on the target use the shared and target copies.
     """
-    out = dict(features)
-    out.update({f"{domain}~{key}": value for key, value in features.items()})
-    out[DOMAIN_KEY] = domain
-    return out
+    return {**features, **domain_copies(features, domain), DOMAIN_KEY: domain}
+
+
+def domain_copies(features: groups.Features, domain: str) -> groups.Features:
+    """The per-domain copies :func:`augment` adds: each feature under ``domain~``."""
+    return {f"{domain}~{key}": value for key, value in features.items()}
 
 
 def _optional_path(value: str) -> Path | None:
@@ -117,6 +119,5 @@ class Featurizer:
             relative = [{**rel, **cue} for rel, cue in zip(relative, cues)]
         domain = base[0].get(DOMAIN_KEY) if base else None
         if domain is not None:
-            relative = [{key: value for key, value in augment(rel, str(domain)).items() if key != DOMAIN_KEY}
-                        for rel in relative]
+            relative = [{**rel, **domain_copies(rel, str(domain))} for rel in relative]
         return [{**own, **rel} for own, rel in zip(base, relative)]
