@@ -17,7 +17,8 @@ from collections import Counter
 from pathlib import Path
 
 from trainer.corpus.convert.inline import read_inline
-from trainer.corpus.jsonl import dumps_record, write_jsonl
+from trainer.corpus.jsonl import dumps_record
+from trainer.outputs import refresh_generated
 
 HERE = Path(__file__).resolve().parent
 # The training journals also ship inside the package as the auxiliary corpus ``packaged:demo``.
@@ -39,12 +40,8 @@ def main(argv: list[str]) -> int:
     for source in sorted((HERE / "source").glob("*.txt")):
         records = read_inline(source)
         target = HERE / split_of(source) / f"{source.stem}.jsonl"
-        expected = "".join(dumps_record(r) + "\n" for r in records)
-        if check_only:
-            if not target.exists() or target.read_text(encoding="utf-8") != expected:
-                stale.append(str(target))
-        else:
-            write_jsonl(records, target)
+        if not refresh_generated(target, "".join(dumps_record(r) + "\n" for r in records), check_only=check_only):
+            stale.append(str(target))
         negatives = sum(1 for r in records if not r.events)
         events = [e for r in records for e in r.events]
         roles = Counter(role.role for e in events for role in e.roles)
@@ -52,11 +49,8 @@ def main(argv: list[str]) -> int:
         totals.update(records=len(records), negatives=negatives, events=len(events), **roles)
         print(f"{source.stem:22} records={len(records):4} negatives={negatives:4} events={len(events):4} {dict(roles)}")
     packaged = "".join(p.read_text(encoding="utf-8") for p in sorted((HERE / "train").glob("*.jsonl")))
-    if check_only:
-        if not PACKAGED.exists() or PACKAGED.read_text(encoding="utf-8") != packaged:
-            stale.append(str(PACKAGED))
-    else:
-        PACKAGED.write_text(packaged, encoding="utf-8")
+    if not refresh_generated(PACKAGED, packaged, check_only=check_only):
+        stale.append(str(PACKAGED))
     print(f"TOTAL {dict(totals)}; negative share {totals['negatives'] / max(totals['records'], 1):.2f}; "
           f"distinct trigger forms {len(triggers)}")
     if stale:

@@ -11,7 +11,7 @@ import pytest
 
 from trainer import outputs
 from trainer.errors import OutputError
-from trainer.outputs import atomic_output, check_output, file_mode, lock_path, output_lock, write_text
+from trainer.outputs import atomic_output, check_output, file_mode, lock_path, output_lock, refresh_generated, write_text
 
 UNWRITABLE = "/proc/itinerant-output-test"  # Linux refuses new files in /proc, even to root
 
@@ -152,3 +152,11 @@ def test_a_live_lock_taken_while_a_stale_one_is_cleared_is_put_back(tmp_path):
     assert lock.read_text() == f"{os.getpid()}\n"
     assert leftovers(tmp_path) == ["out.jsonl.lock"]
     assert outputs._clear_stale(lock, holder=os.getpid()) is True and leftovers(tmp_path) == []
+
+
+def test_refresh_generated_compares_when_checking_and_writes_otherwise(tmp_path):
+    path = tmp_path / "out.jsonl"
+    assert refresh_generated(path, "a\n", check_only=True) is False and not path.exists()
+    assert refresh_generated(path, "a\n") is True and path.read_text(encoding="utf-8") == "a\n"
+    assert refresh_generated(path, "a\n", check_only=True) is True
+    assert refresh_generated(path, "b\n", check_only=True) is False and path.read_text(encoding="utf-8") == "a\n"

@@ -220,6 +220,19 @@ def write_text(path: Path | str, text: str) -> Path:
     return Path(path)
 
 
+def refresh_generated(path: Path | str, text: str, *, check_only: bool = False) -> bool:
+    """Bring a generated file up to date with ``text`` (written atomically); ``check_only`` only compares.
+
+    Returns whether the file now holds ``text``: always true when writing, and
+    with ``check_only`` false for a missing or stale file.
+    """
+    path = Path(path)
+    if check_only:
+        return path.is_file() and path.read_text(encoding="utf-8") == text
+    write_text(path, text)
+    return True
+
+
 def write_bytes(path: Path | str, data: bytes) -> Path:
     """Write bytes atomically; return the path."""
     with atomic_output(path, binary=True) as out:

@@ -17,7 +17,8 @@ from collections import Counter
 from pathlib import Path
 
 from trainer.corpus.convert.inline import read_inline
-from trainer.corpus.jsonl import dumps_record, write_jsonl
+from trainer.corpus.jsonl import dumps_record
+from trainer.outputs import refresh_generated
 
 HERE = Path(__file__).resolve().parent
 
@@ -29,12 +30,8 @@ def main(argv: list[str]) -> int:
     for source in sorted((HERE / "source").glob("*.txt")):
         records = read_inline(source)
         target = HERE / "corpus" / f"{source.stem}.jsonl"
-        expected = "".join(dumps_record(r) + "\n" for r in records)
-        if check_only:
-            if not target.exists() or target.read_text(encoding="utf-8") != expected:
-                stale.append(str(target))
-        else:
-            write_jsonl(records, target)
+        if not refresh_generated(target, "".join(dumps_record(r) + "\n" for r in records), check_only=check_only):
+            stale.append(str(target))
         with_events = sum(1 for r in records if r.events)
         events = [e for r in records for e in r.events]
         roles = Counter(role.role for e in events for role in e.roles)
