@@ -3,6 +3,8 @@
 from __future__ import annotations
 
 import importlib.util
+import os
+import shutil
 import sys
 from pathlib import Path
 from types import ModuleType
@@ -11,6 +13,26 @@ import pytest
 
 REPO = Path(__file__).resolve().parent.parent
 DEMO = REPO / "demo_annotations"
+# Headless Debian Chromium on a closed network: no GPU, no sandbox as root, no background connections.
+CHROMIUM_FLAGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
+                  "--disable-background-networking", "--disable-component-update", "--disable-sync"]
+
+
+def chromium_or_skip(*, playwright: bool = False) -> str:
+    """Debian's Chromium binary (and, with ``playwright``, Playwright's Python package to drive it).
+
+    Without them a developer machine skips the test; CI fails it, since .ci/run installs both.
+    """
+    binary = shutil.which("chromium") or shutil.which("/usr/bin/chromium")
+    missing = [] if binary else ["chromium"]
+    if playwright and importlib.util.find_spec("playwright") is None:
+        missing.append("playwright")
+    if missing:
+        names = " and ".join(missing)
+        if os.environ.get("CI"):
+            pytest.fail(f"{names} is not installed but CI is set: .ci/run should have installed it")
+        pytest.skip(f"{names} is not installed (apt-get install chromium; pip install -e '.[test]'); CI runs this test")
+    return binary
 
 
 def load_bench(name: str) -> ModuleType:

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import importlib.util
 import os
 import re
 import shutil
@@ -14,6 +15,8 @@ from typing import Any, Iterator
 import pytest
 from report_samples import ROLES, S1, S2, at, gold_records, predictions, tiny_report
 
+from tests.conftest import CHROMIUM_FLAGS, chromium_or_skip
+
 from trainer.reports.html import (
     LineTally,
     Mark,
@@ -25,8 +28,6 @@ from trainer.reports.html import (
     span_marks,
 )
 
-CHROMIUM_FLAGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
-                  "--disable-background-networking", "--disable-component-update", "--disable-sync"]
 
 
 class MarkCollector(HTMLParser):
@@ -217,16 +218,6 @@ def test_page_is_the_same_for_the_same_data() -> None:
 # ---------------------------------------------------------------- in a browser
 
 
-def chromium_or_skip() -> str:
-    """The Chromium binary; skip without it on a developer machine, fail in CI (where .ci/run installs it)."""
-    binary = shutil.which("chromium") or shutil.which("/usr/bin/chromium")
-    if binary is None:
-        if os.environ.get("CI"):
-            pytest.fail("chromium is not installed but CI is set: .ci/run should have installed it")
-        pytest.skip("chromium is not installed (apt-get install chromium); CI runs this test")
-    return binary
-
-
 def test_missing_chromium_skips_on_a_developer_machine_and_fails_in_ci(monkeypatch: pytest.MonkeyPatch) -> None:
     monkeypatch.setattr(shutil, "which", lambda name: None)
     monkeypatch.delenv("CI", raising=False)
@@ -235,6 +226,18 @@ def test_missing_chromium_skips_on_a_developer_machine_and_fails_in_ci(monkeypat
     monkeypatch.setenv("CI", "true")
     with pytest.raises(pytest.fail.Exception, match="but CI is set"):
         chromium_or_skip()
+
+
+def test_missing_playwright_skips_a_driven_browser_test_on_a_developer_machine_and_fails_in_ci(
+        monkeypatch: pytest.MonkeyPatch) -> None:
+    real = importlib.util.find_spec
+    monkeypatch.setattr(importlib.util, "find_spec", lambda name, *rest: None if name == "playwright" else real(name, *rest))
+    monkeypatch.delenv("CI", raising=False)
+    with pytest.raises(pytest.skip.Exception, match="playwright is not installed"):
+        chromium_or_skip(playwright=True)
+    monkeypatch.setenv("CI", "true")
+    with pytest.raises(pytest.fail.Exception, match="but CI is set"):
+        chromium_or_skip(playwright=True)
 
 
 def run_chromium(binary: str, profile: Path, *args: str) -> subprocess.CompletedProcess[str]:
@@ -325,7 +328,7 @@ def page_in_chromium(binary: str, html_file: Path) -> Iterator[Any]:
 @pytest.mark.browser
 def test_new_sections_render_in_chromium_both_modes_groups_confidence_warnings_holm(tmp_path: Path) -> None:
     """Exact/overlap, per book/doc, calibration and thresholds, the few-docs warning and Holm's column, as drawn."""
-    binary = chromium_or_skip()
+    binary = chromium_or_skip(playwright=True)
     html_file = tmp_path / "report.html"
     weighed = {"alpha": {"d1-s2": {("path", *at(S2, "the road")): [("gov_prep_cue:path", 1.5)]}}}
     html_file.write_text(html_report(tiny_report(curve=True), gold_records(), predictions(), explanations=weighed),
@@ -360,7 +363,7 @@ def test_new_sections_render_in_chromium_both_modes_groups_confidence_warnings_h
 
 @pytest.mark.browser
 def test_sentence_list_filters_by_config_doc_role_and_kind_and_pages_in_chromium(tmp_path: Path) -> None:
-    binary = chromium_or_skip()
+    binary = chromium_or_skip(playwright=True)
     html_file = tmp_path / "report.html"
     html_file.write_text(html_report(tiny_report(), gold_records(), predictions(), page_size=2), encoding="utf-8")
     shot = Path(os.environ.get("SENTENCES_SCREENSHOT") or tmp_path / "sentences.png")

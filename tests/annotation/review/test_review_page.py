@@ -14,11 +14,12 @@ from __future__ import annotations
 import os
 import shutil
 import signal
-import sys
 from pathlib import Path
 
 import pytest
 from review_samples import demo_records, start_server, suggestion, write_batch
+
+from tests.conftest import CHROMIUM_FLAGS, chromium_or_skip
 
 from trainer.annotation.merge import merge_files
 from trainer.corpus.jsonl import write_jsonl
@@ -27,39 +28,8 @@ from trainer.corpus.reader import read_corpus
 from trainer.corpus.records import Event, Record, RoleSpan
 from trainer.corpus.validate import check_files
 
-CHROMIUM = "/usr/bin/chromium"
-CHROMIUM_FLAGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-background-networking",
-                  "--disable-component-update", "--disable-sync", "--no-first-run"]
 BOOK = Path(__file__).resolve().parents[3] / "demo_annotations" / "test" / "lisle-letters-1.jsonl"
 ACCEPTED, CORRECTED, COMPLETED = "lisle-letters-1-s002", "lisle-letters-1-s004", "lisle-letters-1-s005"
-
-
-def chromium_or_skip() -> None:
-    """Skip without Chromium or Playwright on a developer machine; fail in CI, where .ci/run installs both."""
-    missing = [name for name, present in (("chromium", Path(CHROMIUM).exists()),
-                                          ("playwright", _importable("playwright"))) if not present]
-    if missing:
-        if os.environ.get("CI"):
-            pytest.fail(f"{' and '.join(missing)} not installed but CI is set: .ci/run should have installed them")
-        pytest.skip(f"{' and '.join(missing)} not installed (apt-get install chromium; pip install -e '.[test]'); CI runs this test")
-
-
-def _importable(module: str) -> bool:
-    try:
-        __import__(module)
-    except ImportError:
-        return False
-    return True
-
-
-def test_missing_chromium_skips_on_a_developer_machine_and_fails_in_ci(monkeypatch: pytest.MonkeyPatch) -> None:
-    monkeypatch.setattr(sys.modules[__name__], "CHROMIUM", "/nonexistent/chromium")
-    monkeypatch.delenv("CI", raising=False)
-    with pytest.raises(pytest.skip.Exception, match="chromium not installed"):
-        chromium_or_skip()
-    monkeypatch.setenv("CI", "true")
-    with pytest.raises(pytest.fail.Exception, match="but CI is set"):
-        chromium_or_skip()
 
 
 @pytest.fixture
@@ -77,7 +47,7 @@ def batch(tmp_path: Path) -> Path:
 
 @pytest.mark.browser
 def test_an_annotation_session_in_chromium_saves_exactly_the_changes_made(batch: Path, tmp_path: Path) -> None:
-    chromium_or_skip()
+    binary = chromium_or_skip(playwright=True)
     from playwright.sync_api import expect, sync_playwright
 
     suggested_copy, session_copy = tmp_path / "suggested.jsonl", tmp_path / "after-session.jsonl"
@@ -85,7 +55,7 @@ def test_an_annotation_session_in_chromium_saves_exactly_the_changes_made(batch:
     process, url = start_server(batch)
     try:
         with sync_playwright() as playwright:
-            browser = playwright.chromium.launch(executable_path=CHROMIUM, args=CHROMIUM_FLAGS)
+            browser = playwright.chromium.launch(executable_path=binary, args=CHROMIUM_FLAGS)
             page = browser.new_page(viewport={"width": 1280, "height": 900})
             page.goto(url)
             expect(page.locator("#counter")).to_have_text("reviewed 0 / 3")
@@ -190,14 +160,14 @@ def test_an_annotation_session_in_chromium_saves_exactly_the_changes_made(batch:
 
 @pytest.mark.browser
 def test_a_change_made_while_the_server_is_down_is_kept_and_sent_when_it_is_back(batch: Path) -> None:
-    chromium_or_skip()
+    binary = chromium_or_skip(playwright=True)
     from playwright.sync_api import expect, sync_playwright
 
     process, url = start_server(batch)
     port = int(url.rsplit(":", 1)[1].strip("/"))
     try:
         with sync_playwright() as playwright:
-            browser = playwright.chromium.launch(executable_path=CHROMIUM, args=CHROMIUM_FLAGS)
+            browser = playwright.chromium.launch(executable_path=binary, args=CHROMIUM_FLAGS)
             context = browser.new_context()
             page = context.new_page()
             page.goto(url)
