@@ -191,14 +191,14 @@ def fit(
     The model file is checked to be writable (and not an input) before training starts.
     """
     from trainer.config import add_auxiliary, load_config
-    from trainer.corpus.auxiliary import check_sources
+    from trainer.corpus.auxiliary import check_sources, local_paths
     from trainer.corpus.reader import expand_paths
     from trainer.models.persist import digest_path
     from trainer.outputs import check_output, output_lock
 
     cfg = add_auxiliary(load_config(config), aux, augment)
     check_sources(cfg.auxiliary.corpora)
-    auxiliary = [Path(c) for c in cfg.auxiliary.corpora if not c.startswith("packaged:")]
+    auxiliary = local_paths(cfg.auxiliary.corpora)
     inputs = [*corpus, *expand_paths(corpus), *([config] if config else []), *auxiliary, *expand_paths(auxiliary)]
     check_output(output, inputs=inputs, what="model file")
     check_output(digest_path(output), inputs=inputs, what="model digest file")

@@ -12,7 +12,7 @@ from dataclasses import asdict, dataclass, field, fields, is_dataclass, replace
 from pathlib import Path
 from typing import Any, Sequence
 
-from trainer.corpus.auxiliary import PACKAGED_PREFIX
+from trainer.corpus.auxiliary import resolve_source
 from trainer.corpus.records import DEFAULT_ROLES
 from trainer.errors import ConfigError
 
@@ -253,7 +253,7 @@ def add_auxiliary(config: ExperimentConfig, corpora: Sequence[str] = (), augment
 
     This is what ``--aux`` and ``--augment`` do on the command line.
     """
-    extra = [c if c.startswith(PACKAGED_PREFIX) else str(Path(c).resolve()) for c in corpora]
+    extra = [resolve_source(c, Path.cwd()) for c in corpora]
     merged = list(dict.fromkeys([*config.auxiliary.corpora, *extra]))
     auxiliary = AuxiliaryConfig(corpora=merged, augment=config.auxiliary.augment if augment is None else augment)
     return replace(config, auxiliary=auxiliary)
@@ -261,9 +261,7 @@ def add_auxiliary(config: ExperimentConfig, corpora: Sequence[str] = (), augment
 
 def _resolve_paths(config: ExperimentConfig, base: Path) -> None:
     """Make the data-file paths a config names relative to the config's own folder."""
-    config.auxiliary.corpora = [
-        name if name.startswith(PACKAGED_PREFIX) else str((base / name).resolve()) for name in config.auxiliary.corpora
-    ]
+    config.auxiliary.corpora = [resolve_source(name, base) for name in config.auxiliary.corpora]
     features = config.features
     if features.gazetteer:
         features.gazetteer = str((base / features.gazetteer).resolve())

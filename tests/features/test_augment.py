@@ -5,7 +5,8 @@ from __future__ import annotations
 from tests.hand_parsed import REACHED_TARN, make_doc
 
 from trainer.config import FeatureConfig
-from trainer.features.extract import DOMAIN_KEY, TARGET_DOMAIN, Featurizer, augment
+from trainer.corpus.auxiliary import TARGET_DOMAIN
+from trainer.features.extract import DOMAIN_KEY, Featurizer, augment
 from trainer.features.lexicons import load_lexicons
 
 

@@ -23,6 +23,7 @@ from trainer.corpus.records import DEFAULT_ROLES, Record
 from trainer.errors import ConfigError, UnreadableInputError
 
 PACKAGED_PREFIX = "packaged:"
+TARGET_DOMAIN = "target"  # the name of the corpus being trained on, beside the auxiliary corpora's names
 # name -> (file inside trainer/data, what it is)
 PACKAGED_CORPORA: dict[str, tuple[str, str]] = {
     "demo": ("demo-train.jsonl", "the invented demo corpus's training journals, as in demo_annotations/train"),
@@ -46,6 +47,11 @@ class AuxiliaryCorpus:
                 "left_out_shared_with_target": self.left_out}
 
 
+def packaged_name(source: str) -> str | None:
+    """The corpus name of a ``packaged:<name>`` source, or ``None`` for a file or folder path."""
+    return source[len(PACKAGED_PREFIX):] if source.startswith(PACKAGED_PREFIX) else None
+
+
 def packaged_corpus_path(name: str) -> Path:
     """The file of a packaged corpus, e.g. ``demo``."""
     if name not in PACKAGED_CORPORA:
@@ -55,21 +61,35 @@ def packaged_corpus_path(name: str) -> Path:
     return Path(str(resources.files("trainer").joinpath("data", PACKAGED_CORPORA[name][0])))
 
 
+def source_path(source: str) -> Path:
+    """Where a source's records are: the packaged corpus's file, or the path itself."""
+    name = packaged_name(source)
+    return Path(source) if name is None else packaged_corpus_path(name)
+
+
+def resolve_source(source: str, base: Path) -> str:
+    """A source with a relative path made absolute from ``base``; packaged names stay as they are."""
+    return source if packaged_name(source) is not None else str((base / source).resolve())
+
+
+def local_paths(sources: Sequence[str]) -> list[Path]:
+    """The sources that are files or folders of the user's (not packaged corpora)."""
+    return [Path(source) for source in sources if packaged_name(source) is None]
+
+
 def check_sources(sources: Sequence[str]) -> None:
     """Refuse, before any work starts, a packaged name that does not exist or a path that is missing."""
     for source in sources:
-        if source.startswith(PACKAGED_PREFIX):
-            packaged_corpus_path(source[len(PACKAGED_PREFIX):])
-        elif not Path(source).exists():
+        if not source_path(source).exists():
             raise UnreadableInputError(f"{source}: no such auxiliary corpus (file or folder)",
                                        "fix the path given with --aux or in [auxiliary] corpora")
 
 
 def _domain_name(source: str, taken: set[str]) -> str:
     """A short, unique name for the corpus: the packaged name, or the file or folder stem."""
-    base = source[len(PACKAGED_PREFIX):] if source.startswith(PACKAGED_PREFIX) else Path(source).stem or "aux"
+    base = packaged_name(source) or Path(source).stem or "aux"
     name, number = base, 2
-    while name in taken or name == "target":
+    while name in taken or name == TARGET_DOMAIN:
         name, number = f"{base}{number}", number + 1
     return name
 
@@ -85,8 +105,7 @@ def read_auxiliary(sources: Sequence[str], *, target: Sequence[Record],
     target_ids = {r.id for r in target}
     out: list[AuxiliaryCorpus] = []
     for source in sources:
-        path = packaged_corpus_path(source[len(PACKAGED_PREFIX):]) if source.startswith(PACKAGED_PREFIX) else Path(source)
-        usable, _ = read_corpus([path], roles=roles).training_records()
+        usable, _ = read_corpus([source_path(source)], roles=roles).training_records()
         kept = [r for r in usable if r.doc not in target_docs and r.id not in target_ids]
         name = _domain_name(source, {c.name for c in out})
         out.append(AuxiliaryCorpus(name, source, kept, fingerprint(kept), len(usable) - len(kept)))

@@ -23,7 +23,6 @@ from trainer.features.wordnet import packaged_classes, wordnet_features
 CONTEXT_KEYS = ("lower", "lemma", "pos", "shape", "dep", "gov_prep", "verb_class", "gazetteer", "ent_type",
                 "rule_trigger", "wn_first")
 DOMAIN_KEY = "domain"
-TARGET_DOMAIN = "target"
 
 
 def augment(features: groups.Features, domain: str) -> groups.Features:

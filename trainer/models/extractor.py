@@ -13,9 +13,10 @@ from typing import Sequence
 from spacy.tokens import Doc
 
 from trainer.config import ExperimentConfig, ModelConfig
+from trainer.corpus.auxiliary import TARGET_DOMAIN
 from trainer.corpus.records import Event, Record, RoleSpan
 from trainer.errors import ConfigError
-from trainer.features.extract import TARGET_DOMAIN, Featurizer
+from trainer.features.extract import Featurizer
 from trainer.models.rules import RuleRoleLabeller, RuleTriggerFinder
 from trainer.models.search import f1_of_sets, inner_folds, search_stage
 from trainer.models.sequence import CRFTagger, LogisticTagger, marginal_spans

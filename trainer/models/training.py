@@ -11,10 +11,10 @@ from spacy.language import Language
 from spacy.tokens import Doc
 
 from trainer.config import ExperimentConfig, ParserConfig
-from trainer.corpus.auxiliary import AuxiliaryCorpus, read_auxiliary
+from trainer.corpus.auxiliary import TARGET_DOMAIN, AuxiliaryCorpus, read_auxiliary
 from trainer.corpus.reader import fingerprint
 from trainer.corpus.records import Record
-from trainer.features.extract import TARGET_DOMAIN, Featurizer
+from trainer.features.extract import Featurizer
 from trainer.models.extractor import MotionExtractor
 from trainer.models.persist import load_model, save_model
 from trainer.parsing.align import AlignmentReport
