@@ -33,7 +33,7 @@ from trainer.corpus.records import Record
 from trainer.evaluation.bootstrap import bootstrap_f1s
 from trainer.evaluation.crossval import run_crossval
 from trainer.evaluation.folds import leave_one_book_out
-from trainer.evaluation.scoring import count_corpus
+from trainer.evaluation.scoring import CorpusCounts, count_corpus
 from trainer.evaluation.summary import fold_counts, pool_folds
 from trainer.models.training import fit_extractor, parser_for
 from trainer.parsing.parse import parse_records
@@ -91,6 +91,16 @@ def real_prose_records() -> list[Record]:
     return [r for r in read_corpus([REAL_PROSE]).records if r.is_annotated]
 
 
+def _row(name: str, counts: dict[str, CorpusCounts], roles: Sequence[str], *, bootstrap: int, seed: int,
+         given: dict[str, float] | None = None) -> Row:
+    """One table row from the pooled counts of each scoring mode (intervals by doc)."""
+    scores = {mode: counts[mode].scores() for mode in MODES}
+    return Row(name, {mode: scores[mode].micro.f1 for mode in MODES},
+               {mode: bootstrap_f1s(counts[mode].units(by="doc"), roles, samples=bootstrap, seed=seed)["micro"]
+                for mode in MODES},
+               {mode: scores[mode].trigger.f1 for mode in MODES}, given or {})
+
+
 def leave_one_book_out_rows(records: Sequence[Record], systems: Sequence[ExperimentConfig], *, jobs: int = 1,
                             bootstrap: int = 1000, seed: int = 13) -> list[Row]:
     """Leave-one-book-out scores of each config on the real-prose records."""
@@ -99,15 +109,10 @@ def leave_one_book_out_rows(records: Sequence[Record], systems: Sequence[Experim
     rows = []
     for system in run.systems:
         roles = system.config.roles
-        role_f1, interval, trigger_f1, given = {}, {}, {}, {}
-        for mode in MODES:
-            counts = pool_folds(system, fold_counts(run, system, roles=roles, mode=mode))
-            scores = counts.scores()
-            role_f1[mode], trigger_f1[mode] = scores.micro.f1, scores.trigger.f1
-            interval[mode] = bootstrap_f1s(counts.units(by="doc"), roles, samples=bootstrap, seed=seed)["micro"]
-            given[mode] = pool_folds(system, fold_counts(run, system, roles=roles, mode=mode,
-                                                         gold_triggers=True)).scores().micro.f1
-        rows.append(Row(system.name, role_f1, interval, trigger_f1, given))
+        counts = {mode: pool_folds(system, fold_counts(run, system, roles=roles, mode=mode)) for mode in MODES}
+        given = {mode: pool_folds(system, fold_counts(run, system, roles=roles, mode=mode, gold_triggers=True)
+                                  ).scores().micro.f1 for mode in MODES}
+        rows.append(_row(system.name, counts, roles, bootstrap=bootstrap, seed=seed, given=given))
     return rows
 
 
@@ -120,14 +125,9 @@ def demo_trained_rows(records: Sequence[Record], systems: Sequence[ExperimentCon
     docs, _ = parse_records(nlp, records, systems[0].parser)
     rows = []
     for config in systems:
-        trained = fit_extractor(demo, config, nlp=nlp, docs=demo_docs)
-        predicted = trained.extractor.predict(records, docs)
-        role_f1, interval, trigger_f1 = {}, {}, {}
-        for mode in MODES:
-            counts = count_corpus(records, predicted, roles=config.roles, mode=mode)
-            role_f1[mode], trigger_f1[mode] = counts.scores().micro.f1, counts.scores().trigger.f1
-            interval[mode] = bootstrap_f1s(counts.units(by="doc"), config.roles, samples=bootstrap, seed=seed)["micro"]
-        rows.append(Row(config.name, role_f1, interval, trigger_f1, {}))
+        predicted = fit_extractor(demo, config, nlp=nlp, docs=demo_docs).extractor.predict(records, docs)
+        counts = {mode: count_corpus(records, predicted, roles=config.roles, mode=mode) for mode in MODES}
+        rows.append(_row(config.name, counts, config.roles, bootstrap=bootstrap, seed=seed))
     return rows
 
 
