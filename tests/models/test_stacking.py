@@ -81,3 +81,20 @@ def test_auxiliary_corpora_join_training_with_their_own_domain_and_predictions_u
     weights = extractor.trigger_finder.tagger.crf_.state_features_
     assert any(name.startswith("demo~") for name, _ in weights)
     assert any(name.startswith("target~") for name, _ in weights)
+
+
+def test_uncertainty_of_an_augmented_model_reads_the_target_copies_it_predicts_with(demo, nlp, monkeypatch):
+    from trainer.models import uncertainty
+
+    config = add_auxiliary(_config(demo["tmp"], groups=["lexical", "lexicon"]), ["packaged:demo"], augment=True)
+    trained = fit_extractor(demo["train"], config, nlp=nlp, docs=demo["train_docs"])
+    seen: list[str] = []
+    real = uncertainty._tagger_decisions
+
+    def spy(tagger, X, stage):
+        seen.extend(sentence[0].get(DOMAIN_KEY, "none") for sentence in X if sentence)
+        return real(tagger, X, stage)
+
+    monkeypatch.setattr(uncertainty, "_tagger_decisions", spy)
+    parts = uncertainty.uncertainty_parts(trained, demo["test"][:20], demo["test_docs"][:20])
+    assert len(parts) == 20 and seen and set(seen) == {"target"}

@@ -128,7 +128,7 @@ def _tagger_decisions(tagger: object, X: list[list[dict]], stage: str) -> list[D
                              "use a crf or logistic model for this stage")
 
 
-def _trigger_decisions(trained: TrainedExtractor, docs: Sequence[Doc]) -> list[Decisions]:
+def _trigger_decisions(trained: TrainedExtractor, features: Sequence[list[dict]]) -> list[Decisions]:
     finder = trained.extractor.trigger_finder
     if not isinstance(finder, SequenceTriggerFinder):
         raise NoUncertaintyError(
@@ -136,23 +136,22 @@ def _trigger_decisions(trained: TrainedExtractor, docs: Sequence[Doc]) -> list[D
             "rule models have no uncertainty (they give no probabilities)",
             "suggest with a trained model: [trigger_model] kind = \"crf\" or \"logistic\"",
         )
-    X = trained.extractor.prediction_features(docs)  # the extractor's own feature path
-    return _tagger_decisions(finder.tagger, X, "trigger")
+    return _tagger_decisions(finder.tagger, features, "trigger")
 
 
-def _role_decisions(trained: TrainedExtractor, docs: Sequence[Doc],
-                    triggers: Sequence[Sequence[tuple]]) -> list[Decisions]:
+def _role_decisions(trained: TrainedExtractor, docs: Sequence[Doc], triggers: Sequence[Sequence[tuple]],
+                    features: Sequence[list[dict]]) -> list[Decisions]:
     """Per sentence, the role stage's decisions for all its predicted triggers, stacked."""
     labeller = trained.extractor.role_labeller
     if isinstance(labeller, SequenceRoleLabeller):
         # One role sequence per trigger, built by the labeller's own feature path.
-        flat = iter(_tagger_decisions(labeller.tagger, labeller.sequences(docs, triggers), "role")
+        flat = iter(_tagger_decisions(labeller.tagger, labeller.sequences(docs, triggers, features), "role")
                     if any(triggers) else [])
         per_trigger = [[next(flat) for _ in sentence] for sentence in triggers]
         n_labels = len(labeller.tagger.labels_)
     elif isinstance(labeller, CandidateRoleLinker):
         n_labels = len(labeller.model_.classes_)
-        pairs = iter(labeller.candidate_pairs(docs, triggers))
+        pairs = iter(labeller.candidate_pairs(docs, triggers, features))
         per_trigger = []
         for sentence in triggers:
             rows = []
@@ -195,9 +194,10 @@ def uncertainty_parts(
         docs, _ = parse_records(nlp or parser_for(trained.config), records, trained.config.parser)
     if len(docs) != len(records):
         raise ConfigError(f"{len(records)} records but {len(docs)} docs", "pass one parsed doc per record, in order")
-    trigger_parts = _trigger_decisions(trained, docs)
-    triggers = trained.extractor.trigger_finder.predict(docs)  # what the extractor would predict
-    role_parts = _role_decisions(trained, docs, triggers)
+    features = trained.extractor.prediction_features(docs)  # the extractor's own feature path, computed once
+    trigger_parts = _trigger_decisions(trained, features)
+    triggers = trained.extractor.trigger_finder.predict(docs, features)  # what the extractor would predict
+    role_parts = _role_decisions(trained, docs, triggers, features)
     return [RecordUncertainty(trigger=score(t), role=score(r)) for t, r in zip(trigger_parts, role_parts)]
 
 
