@@ -18,7 +18,7 @@ from trainer.cli import app
 from trainer.config import config_from_dict
 from trainer.corpus.reader import read_corpus
 from trainer.errors import ConfigError, OutputError
-from trainer.models.apply import extract_file, partial_path
+from trainer.models.apply import extract_file, partial_path, resume_point
 from trainer.models.library import DONE, SKIPPED, extract_library, find_books, names_a_library
 from trainer.models.training import fit_extractor, load_extractor, save_extractor
 from trainer.parsing.text import paragraphs, read_text_file
@@ -138,7 +138,10 @@ def test_a_library_run_killed_midway_resumes_to_the_same_files(model_file, tmp_p
     process = subprocess.Popen(command, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
     torn = partial_path(killed / "book-1.jsonl")
     deadline = time.monotonic() + 300
-    while not (torn.exists() and torn.stat().st_size > 0) and time.monotonic() < deadline and process.poll() is None:
+    # Wait until the torn book holds a whole paragraph: resuming plain text keeps whole paragraphs only, so a
+    # kill inside the first one would leave nothing to resume.
+    while (not (torn.exists() and resume_point(torn, plain_text=True).records > 0)
+           and time.monotonic() < deadline and process.poll() is None):
         time.sleep(0.02)
     os.kill(process.pid, signal.SIGKILL)
     process.wait()
