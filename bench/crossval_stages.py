@@ -20,7 +20,7 @@ from _common import machine
 
 from trainer.config import load_config
 from trainer.corpus.reader import read_corpus
-from trainer.evaluation.crossval import run_crossval
+from trainer.experiment.crossval import run_crossval
 from trainer.evaluation.folds import grouped_kfold
 from trainer.evaluation.summary import summarise
 from trainer.features.extract import Featurizer

@@ -31,7 +31,7 @@ from trainer.config import AuxiliaryConfig, ExperimentConfig, load_config
 from trainer.corpus.reader import read_corpus
 from trainer.corpus.records import Record
 from trainer.evaluation.bootstrap import bootstrap_f1s
-from trainer.evaluation.crossval import run_crossval
+from trainer.experiment.crossval import run_crossval
 from trainer.evaluation.folds import leave_one_book_out
 from trainer.evaluation.scoring import CorpusCounts, count_corpus
 from trainer.evaluation.summary import fold_counts, pool_folds

@@ -230,3 +230,20 @@ def test_a_missing_auxiliary_corpus_is_refused_before_any_work(tmp_path):
     assert "training" not in result.output and not (tmp_path / "m.itin").exists()
     result = runner.invoke(app, ["crossval", str(corpus), "--aux", "packaged:atlas", "-o", str(tmp_path / "run")])
     assert result.exit_code == 2 and "no packaged corpus named 'atlas'" in result.output
+
+
+def test_a_wrong_mode_or_conflicting_configs_stop_crossval_before_any_work(tmp_path, demo_train, monkeypatch):
+    from trainer.experiment import crossval as crossval_module
+
+    monkeypatch.setattr(crossval_module, "run_crossval", lambda *a, **k: pytest.fail("training started"))
+    out = tmp_path / "run"
+    result = runner.invoke(app, ["crossval", str(demo_train), "--mode", "fuzzy", "-o", str(out)])
+    assert result.exit_code == 2
+    assert "--mode" in result.output and "exact, overlap" in result.output and "Traceback" not in result.output
+    first, second = tmp_path / "a.toml", tmp_path / "b.toml"
+    first.write_text("[evaluation]\nfolds = 3\n", encoding="utf-8")
+    second.write_text("[evaluation]\nfolds = 4\n", encoding="utf-8")
+    result = runner.invoke(app, ["crossval", str(demo_train), "-c", str(first), "-c", str(second), "-o", str(out)])
+    assert result.exit_code == 2
+    assert "evaluation.folds = 3" in result.output and str(second) in result.output
+    assert not out.exists()

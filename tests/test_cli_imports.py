@@ -34,7 +34,7 @@ print(json.dumps({"exit": result.exit_code, "output": result.output, "modules": 
 HEAVY_PACKAGES = {"spacy", "thinc", "sklearn", "sklearn_crfsuite", "pycrfsuite"}
 HEAVY_MODULES = {"trainer.parsing.pipeline", "trainer.parsing.parse", "trainer.models.extractor",
                  "trainer.models.stages", "trainer.models.sequence", "trainer.models.training",
-                 "trainer.evaluation.crossval", "trainer.features.extract"}
+                 "trainer.experiment.crossval", "trainer.features.extract"}
 
 
 def run_command(args: list[str], cwd: Path) -> dict:

@@ -73,14 +73,14 @@ def test_old_model_keys_are_refused_naming_the_new_key(old, new):
 
 
 def test_our_model_settings_reach_the_libraries_under_their_names():
-    from trainer.models.extractor import _logistic_settings, _tagger
+    from trainer.models.kinds import crf_tagger, logistic_settings
 
     crf = config_from_dict({"trigger_model": {"l1_penalty": 0.2, "l2_penalty": 0.01, "optimiser": "sgd",
                                               "iterations": 7}}).trigger_model
-    tagger = _tagger(crf)
+    tagger = crf_tagger(crf)
     assert (tagger.c1, tagger.c2, tagger.algorithm, tagger.max_iterations) == (0.2, 0.01, "l2sgd", 7)
     logistic = config_from_dict({"role_model": {"kind": "logistic", "regularisation": 4.0,
                                                 "balance_classes": True}}).role_model
     # scikit-learn's LogisticRegression: C is the inverse of regularisation strength (scikit-learn docs)
-    assert _logistic_settings(logistic) == {"C": 0.25, "class_weight": "balanced"}
-    assert _logistic_settings(config_from_dict({}).role_model) == {"C": 1.0, "class_weight": "none"}
+    assert logistic_settings(logistic) == {"C": 0.25, "class_weight": "balanced"}
+    assert logistic_settings(config_from_dict({}).role_model) == {"C": 1.0, "class_weight": "none"}

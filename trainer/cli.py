@@ -17,7 +17,8 @@ from typing import Annotated, Callable, Optional, get_args, get_origin
 import typer
 import typer.core
 
-from trainer.errors import ItinerantError, UnreadableInputError
+from trainer.config import DEFAULT_BOOTSTRAP_SAMPLES, DEFAULT_MODE, DEFAULT_SEED, DEFAULT_TRIALS
+from trainer.errors import ItinerantError
 
 app = typer.Typer(
     add_completion=False,
@@ -127,27 +128,14 @@ def check(
 
     Exit codes: 0 clean, 1 errors found, 2 a file could not be read.
     """
-    from trainer.corpus.reader import expand_paths
-    from trainer.corpus.stats import corpus_stats
-    from trainer.corpus.validate import check_files
+    from trainer.experiment.checking import check_annotations
 
-    inventory = _roles(roles)
-    result = check_files(expand_paths(files), inventory)
-    for problem in result.problems:
+    outcome = check_annotations(files, _roles(roles), lemmas=lemmas, pipeline=pipeline)
+    for problem in outcome.problems:
         typer.echo(str(problem))
-    records = [r for _, _, r in result.records]
-    lemmatize = None
-    with_triggers = [r for r in records if r.events]  # only triggers are lemmatised: no events, no parser
-    if lemmas and with_triggers:
-        from trainer.config import DEFAULT_PIPELINE
-        from trainer.parsing.pipeline import load_pipeline, trigger_lemmatizer
-
-        lemmatize = trigger_lemmatizer(load_pipeline(pipeline or DEFAULT_PIPELINE, groups=["lexical"]), with_triggers)
-    typer.echo("")
-    typer.echo(corpus_stats(records, roles=inventory, lemmatize=lemmatize).to_text())
-    errors, warnings = len(result.errors), len(result.warnings)
-    typer.echo(f"\n{errors} error(s) in {result.bad_records} record(s), {warnings} warning(s)")
-    if errors or (strict and warnings):
+    typer.echo(f"\n{outcome.statistics}")
+    typer.echo(f"\n{outcome.errors} error(s) in {outcome.bad_records} record(s), {outcome.warnings} warning(s)")
+    if outcome.failed(strict=strict):
         raise typer.Exit(1)
 
 
@@ -190,50 +178,20 @@ def fit(
 
     The model file is checked to be writable (and not an input) before training starts.
     """
-    from trainer.config import add_auxiliary, load_config
-    from trainer.corpus.auxiliary import check_sources, local_paths
-    from trainer.corpus.reader import expand_paths
-    from trainer.models.persist import digest_path
-    from trainer.outputs import check_output, output_lock
+    from trainer.experiment.fitting import fit_model
+    from trainer.experiment.settings import Overrides, resolve_settings
 
-    cfg = add_auxiliary(load_config(config), aux, augment)
-    check_sources(cfg.auxiliary.corpora)
-    auxiliary = local_paths(cfg.auxiliary.corpora)
-    inputs = [*corpus, *expand_paths(corpus), *([config] if config else []), *auxiliary, *expand_paths(auxiliary)]
-    check_output(output, inputs=inputs, what="model file")
-    check_output(digest_path(output), inputs=inputs, what="model digest file")
-    with output_lock(output):
-        _fit_locked(corpus, output, cfg, skip_bad, jobs)
-
-
-def _fit_locked(corpus: list[Path], output: Path, cfg, skip_bad: bool, jobs: int) -> None:
-    """The training part of ``fit``, run while the output's lock is held."""
-    from joblib import parallel_config
-
-    from trainer.corpus.reader import read_corpus, skipped_summary
-    from trainer.models.training import fit_extractor, save_extractor
-
-    data = read_corpus(corpus, roles=cfg.roles, skip_bad=skip_bad)
-    if data.skipped:
-        say(skipped_summary(data))
-    annotated, unreviewed = data.training_records()
-    if unreviewed:
-        say(f"left out {len(unreviewed)} pre-annotated record(s) nobody has reviewed (provenance 'predicted'): "
-            f"{', '.join(unreviewed[:10])}{' ...' if len(unreviewed) > 10 else ''}")
-    say(f"training '{cfg.name}' on {len(annotated)} annotated record(s) from {len({r.doc for r in annotated})} doc(s)")
-    started = time.perf_counter()
-    with parallel_config(n_jobs=jobs):
-        trained = fit_extractor(annotated, cfg)
-    for aux in trained.auxiliary:
-        say(f"auxiliary corpus '{aux['name']}' ({aux['source']}): {aux['records']} record(s) joined training, "
-            f"{aux['left_out_shared_with_target']} left out (doc or id shared with the training corpus)"
-            f"{'; features augmented by corpus' if cfg.auxiliary.augment else ''}")
-    meta = save_extractor(trained, output, records=annotated, training_seconds=time.perf_counter() - started)
-    alignment = trained.alignment
-    if alignment and (alignment.widened or alignment.dropped):
-        say(f"alignment: {alignment.widened} span(s) widened to token boundaries, {alignment.dropped} dropped")
+    settings = resolve_settings([config] if config else [], Overrides(auxiliary=tuple(aux), augment=augment))
+    outcome = fit_model(corpus, output, settings, skip_bad=skip_bad, jobs=jobs, progress=say)
+    augmented = "; features augmented by corpus" if settings.configs[0].auxiliary.augment else ""
+    for used in outcome.auxiliary:
+        say(f"auxiliary corpus '{used['name']}' ({used['source']}): {used['records']} record(s) joined training, "
+            f"{used['left_out_shared_with_target']} left out (doc or id shared with the training corpus){augmented}")
+    if outcome.widened or outcome.dropped:
+        say(f"alignment: {outcome.widened} span(s) widened to token boundaries, {outcome.dropped} dropped")
+    meta = outcome.metadata
     say(f"model written to {output} ({meta['payload_bytes']} bytes, {meta['training_seconds']} s); digest in {output}.sha256")
-    if data.skipped:
+    if outcome.skipped:
         raise typer.Exit(1)
 
 
@@ -262,50 +220,30 @@ def extract(
 
     Exit codes: 0 all written, 1 some books failed, 2 unusable input or output.
     """
-    from trainer.errors import ConfigError
-    from trainer.models.apply import check_source, extract_file
+    from trainer.experiment.extraction import ExtractOptions, extract as extract_run
     from trainer.models.library import names_a_library
-    from trainer.models.persist import digest_path
-    from trainer.models.training import load_extractor
-    from trainer.outputs import check_output
 
+    options = ExtractOptions(table=table, input_format=input_format, doc=doc, batch_size=batch_size, resume=resume,
+                             skip_bad=skip_bad, compare=compare, jobs=jobs, scheduler=scheduler)
     show = sys.stderr.isatty() if progress is None else progress
-    if names_a_library(sources, output):
-        if doc or compare:
-            raise ConfigError("--doc and --compare work on one input file, not a library",
-                              "extract that book on its own, with -o naming a .jsonl file")
-        _extract_library(model, sources, output, table=table, input_format=input_format, batch_size=batch_size,
-                         resume=resume, skip_bad=skip_bad, show=show, jobs=jobs, scheduler=scheduler)
-        return
-    source = sources[0]
-    fmt = input_format or ("jsonl" if source.suffix == ".jsonl" else "text")
-    if compare and fmt != "jsonl":
-        raise ConfigError("--compare needs JSONL input whose records carry events", "drop --compare for plain text")
-    check_source(source)
-    inputs = [model, digest_path(model), source]
-    check_output(output, inputs=inputs, what="extraction output")
-    if table:
-        check_output(table, inputs=[*inputs, output], what="event table")
-    trained, _ = load_extractor(model)
-    with progress_bar(f"extracting {source.name}", enabled=show) as update:
-        summary = extract_file(trained, source, output, input_format=fmt, doc_name=doc, batch_size=batch_size,
-                               resume=resume, skip_bad=skip_bad, on_progress=update)
-    for problem in summary.skipped:
+    library = names_a_library(sources, output)
+    with progress_bar(f"extracting {sources[0].name}", enabled=show and not library) as update, \
+            library_progress(enabled=show and library) as on_book:
+        outcome = extract_run(model, sources, output, options, on_progress=update, on_book=on_book)
+    for problem in outcome.skipped:
         say(f"skipped {problem}")
-    resumed = f" (after {summary.resumed} kept from the earlier run)" if summary.resumed else ""
-    say(f"{summary.sentences} sentence(s){resumed}, {summary.events} event(s), {summary.roles} role(s) written to {output}")
-    if compare:
-        from trainer.evaluation.summary import EvaluationSettings
+    if outcome.library is not None:
+        _library_summary(outcome.library, output)
+    else:
+        _book_summary(outcome.book, output)
+    if outcome.comparison is not None:
         from trainer.reports.markdown import score_markdown
-        from trainer.reports.runs import score_report
 
-        typer.echo(score_markdown(score_report(source, output, roles=trained.roles, settings=EvaluationSettings(),
-                                               allow_missing=True)))  # records skipped above count as missed
-    if table:
-        from trainer.corpus.convert import convert_file
-
-        convert_file(output, table, from_format="jsonl", to_format="table", roles=trained.roles)
-        say(f"event table written to {table}")
+        typer.echo(score_markdown(outcome.comparison))
+    if outcome.table:
+        say(f"event table{' of every book' if outcome.library else ''} written to {outcome.table}")
+    if outcome.library is not None and outcome.library.failed:
+        raise typer.Exit(1)
 
 
 @contextmanager
@@ -338,27 +276,20 @@ def library_progress(*, enabled: bool):
         yield update
 
 
-def _extract_library(model: Path, sources: list[Path], folder: Path, *, table: Path | None, input_format: str | None,
-                     batch_size: int, resume: bool, skip_bad: bool, show: bool, jobs: int, scheduler: str | None) -> None:
-    """The library part of ``extract``: every book into FOLDER, failures counted (exit 1 when any)."""
-    from trainer.models.library import DONE, SKIPPED, extract_library
+def _book_summary(book, output: Path) -> None:
+    resumed = f" (after {book.resumed} kept from the earlier run)" if book.resumed else ""
+    say(f"{book.sentences} sentence(s){resumed}, {book.events} event(s), {book.roles} role(s) written to {output}")
 
-    with library_progress(enabled=show) as on_book:
-        summary = extract_library(model, sources, folder, jobs=jobs, scheduler=scheduler, resume=resume,
-                                  batch_size=batch_size, skip_bad=skip_bad, input_format=input_format, table=table,
-                                  on_book=on_book)
-    for result in summary.results:
-        for problem in result.skipped:
-            say(f"skipped {problem}")
+
+def _library_summary(summary, folder: Path) -> None:
+    """What a library run did: books extracted, skipped and failed, and its throughput."""
+    from trainer.models.library import DONE, SKIPPED
+
     done = [r for r in summary.results if r.status == DONE]
     words = sum(r.words for r in done)
     say(f"{len(done)} book(s) extracted, {summary.count(SKIPPED)} already done, {len(summary.failed)} failed; "
         f"{sum(r.sentences for r in done)} sentence(s), {sum(r.events for r in done)} event(s), "
         f"{words} word(s) in {summary.seconds:.1f} s ({words / max(summary.seconds, 1e-9):,.0f} words/s); written to {folder}/")
-    if summary.table:
-        say(f"event table of every book written to {summary.table}")
-    if summary.failed:
-        raise typer.Exit(1)
 
 
 FoldsOption = Annotated[Optional[int], typer.Option("--folds", "-k", help="Number of grouped folds (default: the config's).")]
@@ -366,27 +297,8 @@ SeedOption = Annotated[Optional[int], typer.Option(help="Seed for folds, bootstr
 ModeOption = Annotated[Optional[str], typer.Option(help="Scoring mode: exact or overlap (default: the config's).")]
 
 
-def _settings(configs: list[Path], mode: str | None, seed: int | None, samples: int | None):
-    """Evaluation settings from the first config, with command-line overrides."""
-    from trainer.config import load_config
-    from trainer.evaluation.summary import EvaluationSettings
-
-    evaluation = load_config(configs[0] if configs else None).evaluation
-    return EvaluationSettings(mode=mode or evaluation.mode, seed=evaluation.seed if seed is None else seed,
-                              bootstrap_samples=samples or evaluation.bootstrap_samples,
-                              bootstrap_unit=evaluation.bootstrap_unit)
-
-
-def _fold_options(configs: list[Path], folds: int | None, repeats: int | None, seed: int | None,
-                  leave_one_out: bool, test_docs: str | None, by_book: bool = False):
-    from trainer.config import load_config
-    from trainer.reports.runs import FoldOptions
-
-    evaluation = load_config(configs[0] if configs else None).evaluation
-    return FoldOptions(folds=folds or evaluation.folds, repeats=repeats or evaluation.repeats,
-                       seed=evaluation.seed if seed is None else seed, leave_one_doc_out=leave_one_out,
-                       leave_one_book_out=by_book,
-                       test_docs=tuple(d.strip() for d in test_docs.split(",") if d.strip()) if test_docs else ())
+def _test_docs(value: str | None) -> tuple[str, ...]:
+    return tuple(d.strip() for d in value.split(",") if d.strip()) if value else ()
 
 
 def _shares(value: str) -> list[float]:
@@ -396,16 +308,6 @@ def _shares(value: str) -> list[float]:
         return [float(x) for x in value.split(",") if x.strip()]
     except ValueError:
         raise ConfigError(f"--shares {value!r} is not a list of numbers", "e.g. --shares 0.25,0.5,0.75,1") from None
-
-
-@contextmanager
-def _report_folder_lock(folder: Path, inputs: list[Path]):
-    """Check a report folder and hold its lock for the whole run, so a second run to it is refused at once."""
-    from trainer.outputs import check_output, output_lock
-
-    check_output(folder, inputs=inputs, folder=True, what="report folder")
-    with output_lock(folder):
-        yield
 
 
 @app.command()
@@ -431,15 +333,16 @@ def crossval(
     augment: AugmentOption = None,
 ) -> None:
     """Cross-validate one or more configs on the same document folds and write a report folder."""
+    from trainer.experiment.crossval import crossval_experiment
+    from trainer.experiment.settings import Overrides, resolve_settings
     from trainer.reports.markdown import markdown_summary
-    from trainer.reports.runs import crossval_report
 
-    with _report_folder_lock(output, [*corpus, *config, *test]):
-        report = crossval_report(
-            corpus, config, output,
-            fold_options=_fold_options(config, folds, repeats, seed, leave_one_doc_out, test_docs, leave_one_book_out),
-            settings=_settings(config, mode, seed, bootstrap), test_paths=test, jobs=jobs, scheduler=scheduler,
-            curve_shares=_shares(shares) if shares else (), skip_bad=skip_bad, progress=say, auxiliary=aux, augment=augment)
+    overrides = Overrides(folds=folds, repeats=repeats, seed=seed, mode=mode, bootstrap_samples=bootstrap,
+                          leave_one_doc_out=leave_one_doc_out, leave_one_book_out=leave_one_book_out,
+                          test_docs=_test_docs(test_docs), auxiliary=tuple(aux), augment=augment)
+    report = crossval_experiment(corpus, resolve_settings(config, overrides), output, test_paths=test, jobs=jobs,
+                                 scheduler=scheduler, curve_shares=_shares(shares) if shares else (),
+                                 skip_bad=skip_bad, progress=say)
     typer.echo(markdown_summary(report))
     say(f"report written to {output}/ (report.json, summary.md, report.html, predictions/)")
 
@@ -460,13 +363,13 @@ def curve(
     augment: AugmentOption = None,
 ) -> None:
     """Learning curve: F1 per role as each fold's training docs grow; written with a full cross-validation report."""
+    from trainer.experiment.crossval import crossval_experiment
+    from trainer.experiment.settings import Overrides, resolve_settings
     from trainer.reports.markdown import markdown_summary
-    from trainer.reports.runs import crossval_report
 
-    with _report_folder_lock(output, [*corpus, *config]):
-        report = crossval_report(corpus, config, output, fold_options=_fold_options(config, folds, None, seed, False, None),
-                                 settings=_settings(config, mode, seed, None), jobs=jobs, scheduler=scheduler,
-                                 curve_shares=_shares(shares), progress=say, auxiliary=aux, augment=augment)
+    overrides = Overrides(folds=folds, seed=seed, mode=mode, auxiliary=tuple(aux), augment=augment)
+    report = crossval_experiment(corpus, resolve_settings(config, overrides), output, jobs=jobs, scheduler=scheduler,
+                                 curve_shares=_shares(shares), progress=say)
     typer.echo(markdown_summary(report))
     say(f"report with learning curve written to {output}/")
 
@@ -476,20 +379,20 @@ def curve(
 def score(
     gold: Annotated[Path, typer.Argument(help="Gold annotations (canonical JSONL).")],
     predictions: Annotated[Path, typer.Argument(help="Any system's predictions in the canonical JSONL format.")],
-    mode: Annotated[str, typer.Option(help="exact or overlap.")] = "exact",
+    mode: Annotated[str, typer.Option(help="exact or overlap.")] = DEFAULT_MODE,
     roles: RolesOption = None,
-    seed: Annotated[int, typer.Option(help="Bootstrap seed.")] = 13,
-    bootstrap: Annotated[int, typer.Option(help="Bootstrap samples per interval.")] = 1000,
+    seed: Annotated[int, typer.Option(help="Bootstrap seed.")] = DEFAULT_SEED,
+    bootstrap: Annotated[int, typer.Option(help="Bootstrap samples per interval.")] = DEFAULT_BOOTSTRAP_SAMPLES,
     output: Annotated[Optional[Path], typer.Option("--output", "-o", help="Also write score.json into this folder.")] = None,
     allow_missing: Annotated[bool, typer.Option(
         help="Score gold records that have no prediction as missed (listed in the report) instead of stopping.")] = False,
 ) -> None:
     """Score predictions from any extractor against gold with itinerant's scorer."""
-    from trainer.evaluation.summary import EvaluationSettings
+    from trainer.experiment.score import score_report
+    from trainer.experiment.settings import Overrides, resolve_settings
     from trainer.reports.markdown import score_markdown
-    from trainer.reports.runs import score_report
 
-    settings = EvaluationSettings(mode=mode, seed=seed, bootstrap_samples=bootstrap)
+    settings = resolve_settings([], Overrides(mode=mode, seed=seed, bootstrap_samples=bootstrap)).evaluation
     report = score_report(gold, predictions, roles=_roles(roles), settings=settings, folder=output,
                           allow_missing=allow_missing)
     typer.echo(score_markdown(report))
@@ -502,11 +405,11 @@ def contrast(
     run_b: Annotated[Path, typer.Argument(help="Another report folder on the same corpus and folds.")],
     system_a: Annotated[Optional[str], typer.Option(help="Config name in run A (default: its first).")] = None,
     system_b: Annotated[Optional[str], typer.Option(help="Config name in run B (default: its first).")] = None,
-    trials: Annotated[int, typer.Option(help="Randomization trials.")] = 9999,
-    seed: Annotated[int, typer.Option(help="Seed of the randomization.")] = 13,
+    trials: Annotated[int, typer.Option(help="Randomization trials.")] = DEFAULT_TRIALS,
+    seed: Annotated[int, typer.Option(help="Seed of the randomization.")] = DEFAULT_SEED,
 ) -> None:
     """Paired significance test (approximate randomization by document) between two saved runs."""
-    from trainer.reports.runs import contrast_runs
+    from trainer.experiment.score import contrast_runs
 
     result = contrast_runs(run_a, run_b, system_a=system_a, system_b=system_b, trials=trials, seed=seed)
     a, b = result["a"], result["b"]
@@ -531,46 +434,17 @@ def gate(
     accept: Annotated[bool, typer.Option("--accept", help="Record this report as the new baseline instead of gating.")] = False,
 ) -> None:
     """Fail (exit 1) when extraction quality fell below the baseline; exit 2 when the inputs cannot be compared."""
-    from dataclasses import replace
+    from trainer.experiment.gating import GateRequest, run_gate
+    from trainer.gate.compare import markdown_table
 
-    from trainer.config import load_config
-    from trainer.gate.compare import (GateInputError, accept_baseline, check_baseline, compare, gate_config_of,
-                                      load_report, markdown_table, read_json)
-    from trainer.gate.junit import junit_xml
-    from trainer.outputs import check_output, write_text
-
-    if junit:
-        check_output(junit, inputs=[report, baseline], what="JUnit file")
-    if accept:
-        check_output(baseline, inputs=[report, report / "report.json"], what="baseline")
-    data = load_report(report)
-    base = None if accept else read_json(baseline, "baseline")
-    if base is not None:
-        check_baseline(base)
-    settings = load_config(config).gate if config else gate_config_of(data, system or (base or {}).get("system"))
-    overrides = {}
-    for item in role_tolerance:
-        name, _, value = item.partition("=")
-        try:
-            overrides[name.strip()] = float(value)
-        except ValueError:
-            raise GateInputError(f"--role-tolerance {item!r} is not NAME=NUMBER", "e.g. --role-tolerance mover=0.03") from None
-        if not 0 <= overrides[name.strip()] <= 1:
-            raise GateInputError(f"--role-tolerance {item!r}: the tolerance must lie in [0, 1]", "e.g. --role-tolerance mover=0.03")
-    settings = replace(settings, rule=rule or settings.rule,
-                       tolerance=settings.tolerance if tolerance is None else tolerance,
-                       role_tolerances={**settings.role_tolerances, **overrides})
-    if settings.rule not in ("drop", "interval"):
-        raise GateInputError(f"--rule {settings.rule!r} is not a gate rule", "use drop or interval")
-    if accept:
-        written = accept_baseline(report, baseline, system=system, config=settings)
-        typer.echo(f"baseline for config '{written['system']}' written to {baseline}")
+    outcome = run_gate(GateRequest(report, baseline, config=config, system=system, rule=rule, tolerance=tolerance,
+                                   role_tolerances=tuple(role_tolerance), junit=junit, allow_mismatch=allow_mismatch,
+                                   accept=accept))
+    if outcome.accepted is not None:
+        typer.echo(f"baseline for config '{outcome.accepted['system']}' written to {baseline}")
         return
-    result = compare(data, base, settings, allow_mismatch=allow_mismatch, system=system)
-    typer.echo(markdown_table(result))
-    if junit:
-        write_text(junit, junit_xml(result))
-    if not result.passed:
+    typer.echo(markdown_table(outcome.result))
+    if not outcome.passed:
         raise typer.Exit(1)
 
 
@@ -586,34 +460,22 @@ def itinerary(
     skip_bad: Annotated[bool, typer.Option(help="Leave out records with errors (listed) instead of refusing.")] = False,
 ) -> None:
     """Turn events into an ordered itinerary per doc, and optionally a GeoJSON map of the route."""
-    from trainer.annotation.geo import build_geojson, read_gazetteer, write_geojson
-    from trainer.annotation.itinerary import build_itinerary, write_itinerary
-    from trainer.corpus.reader import expand_paths, read_corpus, skipped_summary
-    from trainer.errors import ConfigError
-    from trainer.outputs import check_output
+    from trainer.experiment.itineraries import itinerary_files
 
-    if bool(gazetteer) != bool(geojson):
-        raise ConfigError("--gazetteer and --geojson go together", "give both to write a map, or neither")
-    inputs = [*records, *expand_paths(records), *([gazetteer] if gazetteer else [])]
-    check_output(output, inputs=inputs, what="itinerary table")
-    if geojson:
-        check_output(geojson, inputs=[*inputs, output], what="GeoJSON file")
-    corpus = read_corpus(records, skip_bad=skip_bad)
-    if corpus.skipped:
-        say(skipped_summary(corpus))
     wanted = [m.strip() for m in movers.split(",") if m.strip()] if movers else None
-    route = build_itinerary(corpus.records, movers=wanted, carry_mover=carry_mover)
-    write_itinerary(route, output)
+    outcome = itinerary_files(records, output, movers=wanted, carry_mover=carry_mover, gazetteer=gazetteer,
+                              geojson=geojson, skip_bad=skip_bad)
+    if outcome.skipped_note:
+        say(outcome.skipped_note)
+    route, mapped = outcome.itinerary, outcome.mapped
     say(f"{len(route.rows)} event(s) in {len(route.docs)} doc(s) written to {output}"
         + (f"; {route.left_out} left out by the mover filter" if route.left_out else ""))
-    if gazetteer and geojson:
-        mapped = build_geojson(route, read_gazetteer(gazetteer))
-        write_geojson(mapped, geojson)
+    if mapped is not None:
         for note in mapped.notes:
             say(f"note: {note}")
         say(f"GeoJSON written to {geojson}; {mapped.resolved_mentions} place mention(s) resolved, "
             f"{len(mapped.unresolved)} name(s) unresolved" + (f": {', '.join(mapped.unresolved)}" if mapped.unresolved else ""))
-    if corpus.skipped:
+    if outcome.skipped:
         raise typer.Exit(1)
 
 
@@ -628,31 +490,10 @@ def suggest(
     diversity: Annotated[float, typer.Option(help="Weight of the spread over docs and trigger lemmas, 0 to 1.")] = 0.5,
 ) -> None:
     """Pick the sentences the model is least sure of (spread over docs and triggers), pre-annotated for correction."""
-    from trainer.annotation.suggest import suggest_batch
-    from trainer.corpus.jsonl import write_jsonl
-    from trainer.corpus.reader import read_corpus
-    from trainer.models.persist import digest_path
-    from trainer.models.training import load_extractor, parser_for
-    from trainer.outputs import check_output
-    from trainer.parsing.text import iter_paragraphs, sentence_records
+    from trainer.experiment.suggesting import suggest_to_file
 
-    check_output(output, inputs=[model, digest_path(model), unlabeled], what="batch file")
-    if not unlabeled.is_file():
-        raise UnreadableInputError(f"{unlabeled}: {'is a folder, not a file' if unlabeled.is_dir() else 'no such file'}",
-                                   "name a .jsonl or .txt file of unannotated sentences")
-    trained, _ = load_extractor(model)
-    nlp = parser_for(trained.config)
-    if unlabeled.suffix == ".jsonl":
-        records = [r for r in read_corpus([unlabeled], roles=trained.roles).records if not r.is_annotated]
-        docs = None
-    else:
-        pairs = list(sentence_records(nlp, iter_paragraphs(unlabeled), doc_name=unlabeled.stem, source=str(unlabeled)))
-        records, docs = [r for r, _ in pairs], [d for _, d in pairs]
-    digest = digest_path(model).read_text(encoding="ascii").split()[0][:12]
-    batch = suggest_batch(trained, records, n, measure=measure, diversity=diversity, nlp=nlp, docs=docs,
-                          model_name=f"{model.name} sha256:{digest}")
-    write_jsonl(batch, output)
-    say(f"{len(batch)} of {len(records)} unannotated record(s) suggested, pre-annotated, written to {output}")
+    outcome = suggest_to_file(model, unlabeled, output, count=n, measure=measure, diversity=diversity)
+    say(f"{outcome.suggested} of {outcome.candidates} unannotated record(s) suggested, pre-annotated, written to {output}")
 
 
 @app.command()
@@ -734,14 +575,15 @@ def demo(
     output: Annotated[Path, typer.Option("--output", "-o", help="Where the demo writes its results.")] = Path("runs/demo"),
 ) -> None:
     """Run the main job on the demo corpus: check, compare extractors by cross-validation, train, extract."""
+    from trainer.experiment.crossval import crossval_experiment
+    from trainer.experiment.settings import resolve_settings
     from trainer.reports.markdown import markdown_summary
-    from trainer.reports.runs import crossval_report
 
     say(f"== 1. checking the annotations in {data}")
     check([data / "train", data / "test"], roles=None, lemmas=True, pipeline=None, strict=False)
     say("\n== 2. comparing the default, logistic and rule extractors by 5-fold cross-validation grouped by journal")
     configs_used = [configs / "default.toml", configs / "logistic.toml", configs / "rules.toml"]
-    report = crossval_report([data / "train"], configs_used, output / "crossval", progress=say)
+    report = crossval_experiment([data / "train"], resolve_settings(configs_used), output / "crossval", progress=say)
     typer.echo(markdown_summary(report))
     say(f"report: {output / 'crossval' / 'report.html'} (also report.json, summary.md, predictions/)")
     say("\n== 3. training the default extractor on all training journals")

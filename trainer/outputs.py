@@ -1,7 +1,8 @@
 """Writing output files so that nothing is lost: checked first, written beside, renamed at the end.
 
-Every file itinerant writes goes through :func:`atomic_output` (or the two
-small helpers on top of it):
+Every file itinerant writes goes through :func:`atomic_output` (or the
+small helpers on top of it; a cache shared by concurrent runs uses
+:func:`write_shared_bytes`, the same write without the lock):
 
 - the data goes to a temporary file in the target's folder, which replaces the
   target by a rename only once it is complete and flushed to disk, so an
@@ -193,24 +194,30 @@ WRITE_ERRNOS = frozenset({errno.ENOSPC, errno.EDQUOT, errno.EFBIG, errno.EROFS, 
 
 
 @contextmanager
+def _replacing(path: Path, *, binary: bool) -> Iterator[IO]:
+    """A handle on a temporary file beside ``path`` that replaces it when the block ends without an error."""
+    fd, name = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
+    temporary = Path(name)
+    try:
+        handle = os.fdopen(fd, "wb") if binary else os.fdopen(fd, "w", encoding="utf-8", newline="\n")
+        with handle:
+            yield handle
+            publish(handle, temporary, path)
+    except OSError as exc:
+        if exc.errno not in WRITE_ERRNOS:
+            raise
+        raise write_failed(path, exc) from None
+    finally:
+        temporary.unlink(missing_ok=True)
+
+
+@contextmanager
 def atomic_output(path: Path | str, *, binary: bool = False) -> Iterator[IO]:
     """Yield a handle whose contents replace ``path`` only when the block ends without an error."""
     path = check_output(path)
     path.parent.mkdir(parents=True, exist_ok=True)
-    with output_lock(path):
-        fd, name = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
-        temporary = Path(name)
-        try:
-            handle = os.fdopen(fd, "wb") if binary else os.fdopen(fd, "w", encoding="utf-8", newline="\n")
-            with handle:
-                yield handle
-                publish(handle, temporary, path)
-        except OSError as exc:
-            if exc.errno not in WRITE_ERRNOS:
-                raise
-            raise write_failed(path, exc) from None
-        finally:
-            temporary.unlink(missing_ok=True)
+    with output_lock(path), _replacing(path, binary=binary) as handle:
+        yield handle
 
 
 def write_text(path: Path | str, text: str) -> Path:
@@ -238,3 +245,16 @@ def write_bytes(path: Path | str, data: bytes) -> Path:
     with atomic_output(path, binary=True) as out:
         out.write(data)
     return Path(path)
+
+
+def write_shared_bytes(path: Path | str, data: bytes) -> Path:
+    """Write bytes atomically into an existing folder, without the lock; return the path.
+
+    For a cache that several runs may fill at once (the parse cache): a second
+    writer is no error there, the last complete copy wins, and readers never
+    see a half-written file.
+    """
+    path = Path(path)
+    with _replacing(path, binary=True) as out:
+        out.write(data)
+    return path

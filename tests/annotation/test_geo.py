@@ -8,11 +8,11 @@ from pathlib import Path
 
 import pytest
 
-from trainer.annotation.geo import GazetteerError, build_geojson, place_key, read_gazetteer, write_geojson
-from trainer.annotation.itinerary import TableFormatError, build_itinerary
+from trainer.annotation.geo import build_geojson, place_key, read_gazetteer, write_geojson
+from trainer.annotation.itinerary import build_itinerary
 from trainer.corpus.convert.inline import parse_inline
 from trainer.corpus.reader import read_corpus
-from trainer.errors import UnreadableInputError
+from trainer.errors import GazetteerError, TableFormatError, UnreadableInputError
 
 DEMO = Path(__file__).resolve().parents[2] / "demo_annotations"
 

@@ -7,10 +7,10 @@ from dataclasses import replace
 import pandas as pd
 import pytest
 
-from trainer.annotation.itinerary import COLUMNS, TableFormatError, build_itinerary, write_itinerary
+from trainer.annotation.itinerary import COLUMNS, build_itinerary, write_itinerary
 from trainer.corpus.convert.inline import parse_inline
 from trainer.corpus.records import Record
-from trainer.errors import ConfigError
+from trainer.errors import ConfigError, TableFormatError
 
 
 def rec(line: str, record_id: str) -> Record:

@@ -7,12 +7,12 @@ from pathlib import Path
 
 import pytest
 
-from trainer.corpus.convert import READERS, WRITERS, UnknownFormatError, convert_file, read_columns, write_columns
+from trainer.corpus.convert import FORMATS, convert_file, read_columns, write_columns
 from trainer.corpus.convert.columns import tokenise
 from trainer.corpus.convert.inline import parse_inline
 from trainer.corpus.jsonl import write_jsonl
 from trainer.corpus.records import Event, Record, RoleSpan
-from trainer.errors import CorpusError
+from trainer.errors import CorpusError, UnknownFormatError
 
 DEMO_TRAIN = Path(__file__).resolve().parents[2] / "demo_annotations" / "train"
 
@@ -207,7 +207,7 @@ def test_convert_file_jsonl_to_columns_and_back(tmp_path: Path) -> None:
     there = convert_file(tmp_path / "sample.jsonl", tmp_path / "sample.conll", from_format="jsonl", to_format="columns")
     back = convert_file(tmp_path / "sample.conll", tmp_path / "back.jsonl", from_format="columns", to_format="jsonl")
     assert there.losses == back.losses == []
-    assert_same(READERS["jsonl"](tmp_path / "back.jsonl").records, sample_records())
+    assert_same(FORMATS["jsonl"].reader(tmp_path / "back.jsonl").records, sample_records())
 
 
 def test_unknown_format_names_the_allowed_ones(tmp_path: Path) -> None:
@@ -215,7 +215,7 @@ def test_unknown_format_names_the_allowed_ones(tmp_path: Path) -> None:
         convert_file(tmp_path / "a.jsonl", tmp_path / "b.xml", from_format="jsonl", to_format="isospace")
     assert str(caught.value) == (f"{tmp_path / 'b.xml'}: 'isospace' is not an output format\n"
                                  "  fix: --output-format takes one of: jsonl, columns, table")
-    assert set(WRITERS) == {"jsonl", "columns", "table"}
+    assert {name for name, fmt in FORMATS.items() if fmt.writer} == {"jsonl", "columns", "table"}
 
 
 def demo_files() -> list[Path]:
@@ -227,7 +227,7 @@ def demo_files() -> list[Path]:
 
 def test_demo_corpus_round_trips_through_columns(tmp_path: Path) -> None:
     for source in demo_files():
-        original = READERS["jsonl"](source).records
+        original = FORMATS["jsonl"].reader(source).records
         there = convert_file(source, tmp_path / f"{source.stem}.conll", from_format="jsonl", to_format="columns")
         back = read_columns(tmp_path / f"{source.stem}.conll")
         assert there.losses == back.losses == [], source

@@ -11,7 +11,7 @@ from pathlib import Path
 
 import pytest
 
-from trainer.corpus.convert import READERS, read_isospace
+from trainer.corpus.convert import FORMATS, read_isospace
 from trainer.corpus.convert.inline import parse_inline
 from trainer.corpus.convert.isospace import split_sentences
 from trainer.corpus.records import Record
@@ -88,7 +88,7 @@ def test_import_gives_sentence_records_with_mapped_roles(tmp_path: Path) -> None
 
 def test_the_reader_is_registered(tmp_path: Path) -> None:
     path = write(tmp_path, "blog.xml", BLOG)
-    assert_same(READERS["isospace"](path).records, expected_blog())
+    assert_same(FORMATS["isospace"].reader(path).records, expected_blog())
 
 
 def test_a_smaller_role_inventory_is_reported(tmp_path: Path) -> None:

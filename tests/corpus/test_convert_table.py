@@ -7,11 +7,11 @@ from pathlib import Path
 
 import pytest
 
-from trainer.corpus.convert import READERS, UnknownFormatError, convert_file, read_table, write_table
+from trainer.corpus.convert import FORMATS, convert_file, read_table, write_table
 from trainer.corpus.convert.inline import parse_inline
 from trainer.corpus.jsonl import write_jsonl
 from trainer.corpus.records import Event, Record, RoleSpan
-from trainer.errors import CorpusError
+from trainer.errors import CorpusError, UnknownFormatError
 
 DEMO_TRAIN = Path(__file__).resolve().parents[2] / "demo_annotations" / "train"
 
@@ -153,7 +153,7 @@ def test_convert_file_jsonl_to_table_and_back(tmp_path: Path) -> None:
     there = convert_file(tmp_path / "sample.jsonl", tmp_path / "sample.csv", from_format="jsonl", to_format="table")
     back = convert_file(tmp_path / "sample.csv", tmp_path / "back.jsonl", from_format="table", to_format="jsonl")
     assert there.losses == back.losses == []
-    assert_same(READERS["jsonl"](tmp_path / "back.jsonl").records, sample_records())
+    assert_same(FORMATS["jsonl"].reader(tmp_path / "back.jsonl").records, sample_records())
 
 
 def test_unknown_input_format_names_the_allowed_ones(tmp_path: Path) -> None:
@@ -170,7 +170,7 @@ def test_demo_corpus_round_trips_through_the_table(tmp_path: Path) -> None:
     if not files:
         pytest.skip(f"demo corpus not built yet: no {DEMO_TRAIN}/*.jsonl (run python demo_annotations/build_demo.py)")
     for source in files:
-        original = READERS["jsonl"](source).records
+        original = FORMATS["jsonl"].reader(source).records
         there = convert_file(source, tmp_path / f"{source.stem}.tsv", from_format="jsonl", to_format="table")
         back = read_table(tmp_path / f"{source.stem}.tsv")
         assert there.losses == back.losses == [], source

@@ -25,7 +25,7 @@ def truth(n):
 
 
 def curve_of(systems: dict[str, list[tuple[float, float]]]) -> dict:
-    """A learning-curve output (trainer.evaluation.curve) with the given (train_records, micro F1) points."""
+    """A learning-curve output (trainer.experiment.curve) with the given (train_records, micro F1) points."""
     shares = [0.2, 0.4, 0.6, 0.8, 1.0]
     return {"shares": shares, "systems": {
         name: [{"share": s, "train_records": n, "f1": {"micro": f, "macro": f / 2}} for s, (n, f) in zip(shares, pts)]

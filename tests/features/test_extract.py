@@ -10,7 +10,8 @@ from spacy.tokens import Doc
 
 from trainer.config import DEFAULT_FEATURE_GROUPS, FEATURE_GROUPS, FeatureConfig
 from trainer.features import groups
-from trainer.features.extract import CONTEXT_KEYS, Featurizer
+from trainer.features.extract import Featurizer
+from trainer.features.groups import CONTEXT_KEYS
 from trainer.features.rule_cues import rule_roles, rule_triggers
 from trainer.features.wordnet import packaged_classes, wordnet_features
 from trainer.features.gazetteer import Gazetteer

@@ -11,7 +11,8 @@ from typer.testing import CliRunner
 
 from trainer.cli import app
 from trainer.config import GateConfig
-from trainer.gate.compare import GateInputError, baseline_from_report, compare
+from trainer.errors import GateInputError
+from trainer.gate.compare import baseline_from_report, compare
 from trainer.gate.junit import junit_xml
 
 runner = CliRunner()

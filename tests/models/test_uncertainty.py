@@ -10,10 +10,10 @@ import pytest
 from trainer.config import config_from_dict
 from trainer.corpus.reader import read_corpus
 from trainer.corpus.records import Record
-from trainer.errors import ConfigError
+from trainer.errors import ConfigError, NoUncertaintyError
 from trainer.models.training import fit_extractor
 from trainer.models.uncertainty import (
-    MEASURES, NoUncertaintyError, RecordUncertainty, least_confidence, mean_entropy, record_uncertainty,
+    MEASURES, RecordUncertainty, least_confidence, mean_entropy, record_uncertainty,
     uncertainty_parts,
 )
 from trainer.parsing.parse import parse_records

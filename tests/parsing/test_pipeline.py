@@ -9,13 +9,7 @@ from spacy.language import Language
 
 from trainer.config import DEFAULT_PIPELINE, FEATURE_GROUPS
 from trainer.errors import PipelineNotFoundError
-from trainer.parsing.pipeline import (
-    ALWAYS_NEEDED,
-    COMPONENTS_BY_GROUP,
-    load_pipeline,
-    needed_components,
-    pipeline_identity,
-)
+from trainer.parsing.pipeline import ALWAYS_NEEDED, load_pipeline, needed_components, pipeline_identity
 
 ALL = ["tok2vec", "tagger", "parser", "attribute_ruler", "lemmatizer", "ner"]
 WITHOUT_NER = ["tok2vec", "tagger", "parser", "attribute_ruler", "lemmatizer"]
@@ -69,7 +63,7 @@ def test_components_no_group_needs_are_disabled(groups: list[str], active: list[
 def test_needed_components() -> None:
     assert needed_components([]) == set(ALWAYS_NEEDED)
     assert needed_components(["tagging"]) == set(ALWAYS_NEEDED) | {"ner"}
-    assert set(COMPONENTS_BY_GROUP) == set(FEATURE_GROUPS)
+    assert needed_components(["no such group"]) == set(ALWAYS_NEEDED)
 
 
 def test_ner_is_off_only_when_no_entities_are_read() -> None:
@@ -81,7 +75,7 @@ def test_ner_is_off_only_when_no_entities_are_read() -> None:
 @pytest.mark.slow
 @pytest.mark.parametrize("group", FEATURE_GROUPS)
 def test_the_components_a_group_keeps_give_the_features_of_the_whole_pipeline(nlp: Language, demo_test, group: str) -> None:
-    """COMPONENTS_BY_GROUP is complete: a group's token features on the pruned pipeline equal those on the full one."""
+    """The registry's ``components`` are complete: a group's token features on the pruned pipeline equal those on the full one."""
     from trainer.config import FeatureConfig
     from trainer.corpus.reader import read_corpus
     from trainer.features.extract import Featurizer

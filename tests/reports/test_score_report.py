@@ -13,9 +13,9 @@ from trainer.cli import app
 from trainer.corpus.jsonl import write_jsonl
 from trainer.errors import CorpusError
 from trainer.evaluation.summary import EvaluationSettings
+from trainer.experiment.score import score_report
 from trainer.reports.html import html_report
 from trainer.reports.markdown import markdown_summary, score_markdown
-from trainer.reports.runs import score_report
 
 SETTINGS = EvaluationSettings(bootstrap_samples=50)
 

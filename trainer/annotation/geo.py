@@ -35,7 +35,7 @@ from pathlib import Path
 from typing import Any
 
 from trainer.annotation.itinerary import PLACE_ROLES, Itinerary, ItineraryRow, fold, table_separator
-from trainer.errors import ItinerantError, UnreadableInputError
+from trainer.errors import GazetteerError, UnreadableInputError
 from trainer.outputs import write_text
 
 REQUIRED_COLUMNS = ("name", "latitude", "longitude")
@@ -45,12 +45,6 @@ LIMITS = {"latitude": 90.0, "longitude": 180.0}
 DECIMALS = 6  # about 10 cm; RFC 7946 section 11.2 advises against more
 MAX_LISTED = 20
 _DETERMINER = re.compile(r"^the\s+")
-
-
-class GazetteerError(ItinerantError):
-    """A gazetteer file has missing columns, bad numbers, out-of-range coordinates or clashing names."""
-
-    exit_code = 1
 
 
 def place_key(text: str) -> str:

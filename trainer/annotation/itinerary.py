@@ -49,7 +49,7 @@ from typing import Iterable, Sequence
 import pandas as pd
 
 from trainer.corpus.records import Event, Record
-from trainer.errors import ConfigError, ItinerantError
+from trainer.errors import ConfigError, TableFormatError
 from trainer.outputs import write_text
 
 FIRST_PERSON = "first_person"
@@ -65,12 +65,6 @@ SEPARATORS = {".csv": ",", ".tsv": "\t"}
 LINE_END = "\r\n"  # as the flat table writer (RFC 4180)
 _APOSTROPHES = str.maketrans({"\u2019": "'", "\u2018": "'", "\u02bc": "'", "\u2032": "'"})
 _SPACE = re.compile(r"\s+")
-
-
-class TableFormatError(ItinerantError):
-    """An itinerary table was given a file name that names no table format."""
-
-    exit_code = 2
 
 
 def fold(text: str) -> str:
@@ -114,10 +108,6 @@ class Itinerary:
     carry_mover: bool = False
     left_out: int = 0
     unannotated: int = 0
-
-    @property
-    def filtered(self) -> bool:
-        return bool(self.movers)
 
     @property
     def docs(self) -> list[str]:

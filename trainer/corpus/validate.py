@@ -14,6 +14,7 @@ from typing import Any, Iterable
 
 from trainer.corpus.jsonl import iter_lines, record_from_dict, record_to_dict
 from trainer.corpus.records import DEFAULT_ROLES, Record
+from trainer.errors import StrictJSONError
 
 ERROR = "error"
 WARNING = "warning"
@@ -253,14 +254,6 @@ class _DuplicateKeys:
         return obj
 
 
-class StrictJSONError(ValueError):
-    """Text that is not one clean JSON value; ``hint`` says what to do."""
-
-    def __init__(self, message: str, hint: str) -> None:
-        super().__init__(message)
-        self.hint = hint
-
-
 def _too_deep() -> StrictJSONError:
     return StrictJSONError(f"arrays or objects nested more than {MAX_DEPTH} deep",
                            "a record itself needs six levels (record, events, event, roles, role, span); "
@@ -299,7 +292,7 @@ def check_line(file: str, number: int, line: str, roles: tuple[str, ...], first_
     try:
         obj = checker.check(strict_loads(line))
     except StrictJSONError as exc:
-        checker.add("record", str(exc), exc.hint)
+        checker.add("record", exc.cause, exc.fix)
         obj = None
     if obj is not None:
         if obj["id"] in first_seen:

@@ -18,6 +18,7 @@ from typing import Callable, Mapping, Sequence
 
 import numpy as np
 
+from trainer.config import DEFAULT_BOOTSTRAP_SAMPLES, DEFAULT_CONFIDENCE, DEFAULT_SEED
 from trainer.errors import ConfigError, CorpusError
 from trainer.evaluation.scoring import UnitCounts, check_roles, counts_array, f1_arrays
 
@@ -66,9 +67,9 @@ def bootstrap_interval(
     unit_counts: Sequence[UnitCounts],
     *,
     statistic: Statistic,
-    samples: int = 1000,
-    seed: int = 13,
-    confidence: float = 0.95,
+    samples: int = DEFAULT_BOOTSTRAP_SAMPLES,
+    seed: int = DEFAULT_SEED,
+    confidence: float = DEFAULT_CONFIDENCE,
 ) -> tuple[float, float]:
     """Percentile interval of ``statistic`` over resamples of the units.
 
@@ -87,9 +88,9 @@ def bootstrap_f1s(
     counts_by_unit: Mapping[str, UnitCounts] | Sequence[UnitCounts],
     roles: Sequence[str],
     *,
-    samples: int = 1000,
-    seed: int = 13,
-    confidence: float = 0.95,
+    samples: int = DEFAULT_BOOTSTRAP_SAMPLES,
+    seed: int = DEFAULT_SEED,
+    confidence: float = DEFAULT_CONFIDENCE,
 ) -> dict[str, tuple[float, float]]:
     """Percentile interval of every F1 in ``Scores`` (per role, micro, macro, trigger, unlinked), by name.
 

@@ -27,6 +27,7 @@ from typing import Any, Sequence
 
 import numpy as np
 
+from trainer.config import DEFAULT_MODE
 from trainer.corpus.records import Record
 from trainer.errors import ConfigError
 from trainer.evaluation.scoring import (TRIGGER, check_roles, match_instances, pair_by_id, role_instances,
@@ -65,7 +66,7 @@ def _confidences(record: Record, label: str) -> dict[tuple, float | None]:
 
 
 def scored_predictions(gold: Sequence[Record], predicted: Sequence[Record], *, roles: Sequence[str],
-                       mode: str = "exact") -> dict[str, Scored]:
+                       mode: str = DEFAULT_MODE) -> dict[str, Scored]:
     """``{"trigger": Scored, role: Scored, ...}`` over every annotated gold record and its prediction."""
     roles = check_roles(roles)
     pairs, _ = pair_by_id(gold, predicted)
@@ -138,7 +139,7 @@ def precision_recall(scored: Scored) -> dict[str, Any]:
 
 
 def confidence_report(gold: Sequence[Record], predicted: Sequence[Record], *, roles: Sequence[str],
-                      mode: str = "exact", bins: int = DEFAULT_BINS) -> dict[str, Any]:
+                      mode: str = DEFAULT_MODE, bins: int = DEFAULT_BINS) -> dict[str, Any]:
     """Reliability and precision-recall for the trigger, each role and all roles pooled."""
     scored = scored_predictions(gold, predicted, roles=roles, mode=mode)
     roles = check_roles(roles)

@@ -27,7 +27,6 @@ from trainer.corpus.records import DEFAULT_ROLES, Record
 from trainer.evaluation.scoring import Span, as_span, check_roles, pair_by_id, span_overlap
 
 KINDS = ("correct", "boundary", "wrong_role", "wrong_trigger_link", "missed", "spurious")
-ERROR_KINDS = KINDS[1:]
 NONE = "none"
 
 Triple = tuple[Span, str, Span]  # (trigger span, role, argument span)

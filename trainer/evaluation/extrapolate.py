@@ -1,7 +1,7 @@
 """Extrapolating a learning curve: how much would more annotation help?
 
 The points are a learning curve's ``(train_records, F1)`` pairs (the output of
-:func:`trainer.evaluation.curve.learning_curve`). They are fitted with an
+:func:`trainer.experiment.curve.learning_curve`). They are fitted with an
 inverse power law
 
     f(n) = a - b * n ** (-c),   a in [0, 1], b >= 0, c in (0, 2]
@@ -36,6 +36,7 @@ from typing import Any, Mapping, Sequence
 import numpy as np
 from scipy.optimize import OptimizeWarning, curve_fit
 
+from trainer.config import DEFAULT_CONFIDENCE, DEFAULT_SEED
 from trainer.errors import ConfigError
 
 MODEL = "f(n) = a - b * n^(-c)"
@@ -90,9 +91,9 @@ class CurveFit:
     estimates: tuple[Estimate, ...]
     reliable: bool
     reasons: list[str] = field(default_factory=list)
-    confidence: float = 0.95
+    confidence: float = DEFAULT_CONFIDENCE
     samples: int = 2000
-    seed: int = 13
+    seed: int = DEFAULT_SEED
     model: str = MODEL
     interval_method: str = INTERVAL_METHOD
 
@@ -129,7 +130,7 @@ def _check_options(factors: Sequence[float], confidence: float, samples: int, ma
 
 def fit_learning_curve(
     train_records: Sequence[float], f1: Sequence[float], *, score: str = "micro",
-    factors: Sequence[float] = DEFAULT_FACTORS, confidence: float = 0.95, samples: int = 2000, seed: int = 13,
+    factors: Sequence[float] = DEFAULT_FACTORS, confidence: float = DEFAULT_CONFIDENCE, samples: int = 2000, seed: int = DEFAULT_SEED,
     max_factor: float = MAX_FACTOR, max_relative_error: float = MAX_RELATIVE_ERROR,
 ) -> CurveFit:
     """Fit :func:`inverse_power_law` to ``(train_records[i], f1[i])`` and estimate F1 at ``factor`` x the largest size.
@@ -247,7 +248,7 @@ def _estimates(
 
 def extrapolate_curve(
     curve: Mapping[str, Any], *, score: str = "micro", factors: Sequence[float] = DEFAULT_FACTORS,
-    confidence: float = 0.95, samples: int = 2000, seed: int = 13, max_factor: float = MAX_FACTOR,
+    confidence: float = DEFAULT_CONFIDENCE, samples: int = 2000, seed: int = DEFAULT_SEED, max_factor: float = MAX_FACTOR,
     max_relative_error: float = MAX_RELATIVE_ERROR,
 ) -> dict[str, CurveFit]:
     """One :class:`CurveFit` per system of a learning curve, in the curve's system order.

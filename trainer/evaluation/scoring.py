@@ -35,7 +35,7 @@ from typing import Any, Iterable, Mapping, Sequence
 
 import numpy as np
 
-from trainer.config import SCORING_MODES
+from trainer.config import DEFAULT_MODE, SCORING_MODES
 from trainer.corpus.records import DEFAULT_ROLES, Record
 from trainer.errors import ConfigError, CorpusError
 
@@ -272,7 +272,7 @@ def scores_from_counts(
     counts: Mapping[str, UnitCounts] | Iterable[UnitCounts],
     roles: Sequence[str] = DEFAULT_ROLES,
     *,
-    mode: str = "exact",
+    mode: str = DEFAULT_MODE,
     records: int | None = None,
     unannotated: int = 0,
 ) -> Scores:
@@ -392,7 +392,7 @@ def _counts(gold: set[Instance], pred: set[Instance], mode: str) -> Counts:
 
 
 def count_record(
-    gold: Record, pred: Record, *, roles: Sequence[str] = DEFAULT_ROLES, mode: str = "exact", link: bool = True
+    gold: Record, pred: Record, *, roles: Sequence[str] = DEFAULT_ROLES, mode: str = DEFAULT_MODE, link: bool = True
 ) -> dict[str, Counts]:
     """Counts of one record: a key per role, plus ``trigger``.
 
@@ -507,7 +507,7 @@ class CorpusCounts:
 
 
 def count_corpus(
-    gold: Sequence[Record], pred: Sequence[Record], *, roles: Sequence[str] = DEFAULT_ROLES, mode: str = "exact"
+    gold: Sequence[Record], pred: Sequence[Record], *, roles: Sequence[str] = DEFAULT_ROLES, mode: str = DEFAULT_MODE
 ) -> CorpusCounts:
     """Counts of every annotated gold record, paired with its prediction by id (see :func:`pair_by_id`)."""
     roles = check_roles(roles)
@@ -544,7 +544,7 @@ def merge_counts(parts: Iterable[CorpusCounts]) -> CorpusCounts:
 
 
 def score_corpus(
-    gold: Sequence[Record], pred: Sequence[Record], *, roles: Sequence[str] = DEFAULT_ROLES, mode: str = "exact"
+    gold: Sequence[Record], pred: Sequence[Record], *, roles: Sequence[str] = DEFAULT_ROLES, mode: str = DEFAULT_MODE
 ) -> Scores:
     """Score predictions against gold records, paired by id; see the module docstring for the rules."""
     return count_corpus(gold, pred, roles=roles, mode=mode).scores()

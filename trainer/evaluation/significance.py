@@ -20,6 +20,7 @@ from typing import Callable, Mapping, Sequence
 
 import numpy as np
 
+from trainer.config import DEFAULT_SEED, DEFAULT_TRIALS
 from trainer.errors import ConfigError, CorpusError
 from trainer.evaluation.scoring import UnitCounts, check_roles, counts_array, f1_arrays
 
@@ -64,8 +65,8 @@ def paired_randomization(
     units_b: Sequence[UnitCounts],
     *,
     statistic: Statistic,
-    trials: int = 9999,
-    seed: int = 13,
+    trials: int = DEFAULT_TRIALS,
+    seed: int = DEFAULT_SEED,
     exact: bool = False,
 ) -> tuple[float, float]:
     """``(statistic(A) - statistic(B), two-sided p-value)``; ``units_a[i]`` and ``units_b[i]`` are the same unit.
@@ -90,8 +91,8 @@ def compare_f1s(
     counts_b: Mapping[str, UnitCounts],
     roles: Sequence[str],
     *,
-    trials: int = 9999,
-    seed: int = 13,
+    trials: int = DEFAULT_TRIALS,
+    seed: int = DEFAULT_SEED,
     exact: bool = False,
 ) -> dict[str, tuple[float, float]]:
     """``(F1 of A - F1 of B, p-value)`` for every F1 in ``Scores`` (per role, micro, macro, trigger, unlinked).

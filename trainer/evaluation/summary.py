@@ -9,30 +9,28 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from itertools import combinations
 from statistics import mean, pstdev
-from typing import TYPE_CHECKING, Any, Sequence
+from typing import Any, Sequence
 
-from trainer.config import SCORING_MODES
+from trainer.config import DEFAULT_BOOTSTRAP_SAMPLES, DEFAULT_BOOTSTRAP_UNIT, DEFAULT_CONFIDENCE, DEFAULT_MODE, DEFAULT_SEED, DEFAULT_TRIALS, SCORING_MODES
 from trainer.evaluation.bootstrap import bootstrap_f1s
 from trainer.evaluation.breakdown import breakdown, fold_breakdown
 from trainer.evaluation.confidence import confidence_report
 from trainer.evaluation.error_analysis import ErrorAnalysis, error_analysis
+from trainer.evaluation.runs import CrossvalRun, SystemRun
 from trainer.evaluation.scoring import CorpusCounts, Scores, count_corpus, merge_counts
 from trainer.evaluation.significance import compare_f1s, holm
-
-if TYPE_CHECKING:  # only named in hints: scoring a file must not load the parser and the models
-    from trainer.evaluation.crossval import CrossvalRun, SystemRun
 
 
 @dataclass
 class EvaluationSettings:
     """How scores, intervals and tests are computed (recorded in every report)."""
 
-    mode: str = "exact"
-    bootstrap_samples: int = 1000
-    bootstrap_unit: str = "doc"
-    confidence: float = 0.95
-    seed: int = 13
-    trials: int = 9999
+    mode: str = DEFAULT_MODE
+    bootstrap_samples: int = DEFAULT_BOOTSTRAP_SAMPLES
+    bootstrap_unit: str = DEFAULT_BOOTSTRAP_UNIT
+    confidence: float = DEFAULT_CONFIDENCE
+    seed: int = DEFAULT_SEED
+    trials: int = DEFAULT_TRIALS
 
     def to_dict(self) -> dict[str, Any]:
         return dict(self.__dict__)

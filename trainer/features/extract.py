@@ -1,8 +1,9 @@
 """The one feature path shared by training and prediction.
 
 A :class:`Featurizer` turns a parsed sentence into a list of feature dicts,
-one per token, from the feature groups the config switches on. Role labelling
-adds the trigger-relative group for one trigger at a time.
+one per token, from the feature groups the config switches on (their
+functions come from the table in :mod:`trainer.features.registry`). Role
+labelling adds the groups relative to one trigger at a time.
 """
 
 from __future__ import annotations
@@ -16,12 +17,8 @@ from trainer.config import FeatureConfig
 from trainer.features import groups
 from trainer.features.gazetteer import Gazetteer, read_place_names
 from trainer.features.lexicons import Lexicons, load_lexicons
-from trainer.features.rule_cues import rule_roles, rule_triggers
-from trainer.features.wordnet import packaged_classes, wordnet_features
+from trainer.features.registry import enabled
 
-# Keys copied from neighbouring tokens by the context group (absent keys, e.g. of a group switched off, are skipped).
-CONTEXT_KEYS = ("lower", "lemma", "pos", "shape", "dep", "gov_prep", "verb_class", "gazetteer", "ent_type",
-                "rule_trigger", "wn_first")
 DOMAIN_KEY = "domain"
 
 
@@ -69,6 +66,9 @@ class Featurizer:
             gazetteer = Gazetteer.from_names(names, nlp, ignore_case=config.gazetteer_ignore_case)
         return cls(config, lexicons, gazetteer)
 
+    def _sentence(self, doc: Doc, features: list[groups.Features]) -> groups.Sentence:
+        return groups.Sentence(doc, self.config, self.lexicons, self.gazetteer, features)
+
     def token_features(self, doc: Doc, *, domain: str | None = None) -> list[groups.Features]:
         """One feature dict per token, without trigger-relative features.
 
@@ -76,33 +76,13 @@ class Featurizer:
         feature augmentation (:func:`augment`); the trigger-relative features
         of :meth:`role_features` then follow the same domain.
         """
-        gazetteer_tags = self.gazetteer.tags(doc) if self.gazetteer else ["O"] * len(doc)
-        rule_tags = None
-        if "rules" in self.groups:
-            arguments = [rule_roles(doc, (t.i, t.i + 1), self.lexicons) if t.pos_ == "VERB" else [] for t in doc]
-            rule_tags = groups.rule_trigger_tags(doc, rule_triggers(doc, self.lexicons), arguments)
-        wordnet = packaged_classes() if "wordnet" in self.groups else None
-        own: list[groups.Features] = []
-        needs_gov = "syntax" in self.groups or "lexicon" in self.groups
-        for token in doc:
-            gov = groups.governing_preposition(token) if needs_gov else ""
-            features: groups.Features = {"bias": 1.0}
-            if "lexical" in self.groups:
-                features.update(groups.lexical(token, self.config.affix_length))
-            if "tagging" in self.groups:
-                features.update(groups.tagging(token))
-            if "syntax" in self.groups:
-                features.update(groups.syntax(token, gov))
-            if "lexicon" in self.groups:
-                features.update(groups.lexicon(token, self.lexicons, gazetteer_tags[token.i], gov))
-            if rule_tags is not None:
-                features.update(rule_tags[token.i])
-            if wordnet is not None:
-                features.update(wordnet_features(token, wordnet))
-            own.append(features)
-        if "context" in self.groups:
-            own = [{**features, **groups.context(own, i, self.config.window, CONTEXT_KEYS)}
-                   for i, features in enumerate(own)]
+        own: list[groups.Features] = [{"bias": 1.0} for _ in doc]
+        sentence = self._sentence(doc, own)
+        # Table order, except that the groups reading the others' features come last (sorting is stable).
+        for spec in sorted(enabled(self.groups), key=lambda spec: spec.reads_other_groups):
+            if spec.tokens is not None:
+                for features, added in zip(own, spec.tokens(sentence)):
+                    features.update(added)
         return own if domain is None else [augment(features, domain) for features in own]
 
     def role_features(
@@ -111,11 +91,10 @@ class Featurizer:
         """Token features plus, when enabled, features relative to one trigger (token range)."""
         base = base if base is not None else self.token_features(doc)
         relative: list[groups.Features] = [{} for _ in doc]
-        if "trigger_relative" in self.groups:
-            relative = groups.trigger_relative_all(doc, trigger, self.lexicons)
-        if "rules" in self.groups:
-            cues = groups.rule_role_tags(doc, rule_roles(doc, trigger, self.lexicons))
-            relative = [{**rel, **cue} for rel, cue in zip(relative, cues)]
+        sentence = self._sentence(doc, base)
+        for spec in enabled(self.groups):
+            if spec.trigger is not None:
+                relative = [{**rel, **added} for rel, added in zip(relative, spec.trigger(sentence, trigger))]
         domain = base[0].get(DOMAIN_KEY) if base else None
         if domain is not None:
             relative = [{**rel, **domain_copies(rel, str(domain))} for rel in relative]

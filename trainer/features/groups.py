@@ -1,24 +1,59 @@
-"""Named feature groups: each a small function from a parsed token to a feature dict.
+"""Named feature groups: small functions from a parsed sentence to one feature dict per token.
 
 Values are strings, booleans or numbers, the shape CRFsuite and scikit-learn's
-DictVectorizer both take. Every group reads only the parse and the lexicons,
-so training and prediction compute features the same way.
+DictVectorizer both take. Every group reads only the parse and the lexicons
+(through a :class:`Sentence`), so training and prediction compute features the
+same way. The table in :mod:`trainer.features.registry` names the groups and
+says which function makes each.
+
+This module loads no spaCy (types only), so the config can read the table.
 """
 
 from __future__ import annotations
 
 import functools
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Sequence
-
-from spacy.tokens import Doc, Token
 
 from trainer.features.lexicons import Lexicons
 
-if TYPE_CHECKING:  # rule_cues imports this module for governing_preposition
-    from trainer.features.rule_cues import RuleRole, RuleTrigger
+if TYPE_CHECKING:
+    from spacy.tokens import Doc, Token
+
+    from trainer.config import FeatureConfig
+    from trainer.features.gazetteer import Gazetteer
+    from trainer.features.rule_cues import RuleRole, RuleTrigger  # rule_cues imports this module
 
 Features = dict[str, str | float | bool]
+# Keys the context group copies from neighbouring tokens (absent keys, e.g. of a group switched off, are skipped).
+CONTEXT_KEYS = ("lower", "lemma", "pos", "shape", "dep", "gov_prep", "verb_class", "gazetteer", "ent_type",
+                "rule_trigger", "wn_first")
+
+
+@dataclass
+class Sentence:
+    """What a feature group reads: one parsed sentence, the feature settings, the word lists and the gazetteer.
+
+    ``features`` holds, per token, what the groups applied before gave (the
+    context group copies its neighbours' from it). The per-sentence values
+    several groups share are computed once, on first use.
+    """
+
+    doc: Doc
+    config: FeatureConfig
+    lexicons: Lexicons
+    gazetteer: Gazetteer | None = None
+    features: list[Features] = field(default_factory=list)
+
+    @functools.cached_property
+    def gazetteer_tags(self) -> list[str]:
+        """Each token's BIO tag from the gazetteer (all ``O`` without one)."""
+        return self.gazetteer.tags(self.doc) if self.gazetteer else ["O"] * len(self.doc)
+
+    @functools.cached_property
+    def governing(self) -> list[str]:
+        """Each token's governing preposition (:func:`governing_preposition`)."""
+        return [governing_preposition(token) for token in self.doc]
 
 _PP_INNER_DEPS = {"pobj", "compound", "amod", "det", "poss", "nummod", "nmod", "appos", "conj", "cc", "case", "quantmod", "flat"}
 _MAX_PREP_WORDS = 4
@@ -326,3 +361,54 @@ def rule_role_tags(doc: Doc, roles: Sequence["RuleRole"]) -> list[Features]:
             out[i]["rule_role"] = f"{'B' if i == role.first else 'I'}-{role.role}"
             out[i]["rule_cue"] = role.cue
     return out
+
+
+# The groups as the registry calls them: one feature dict per token of the sentence
+# (or, for the trigger-relative ones, per token for one trigger).
+
+def lexical_group(sentence: Sentence) -> list[Features]:
+    """:func:`lexical` with the configured affix length."""
+    return [lexical(token, sentence.config.affix_length) for token in sentence.doc]
+
+
+def tagging_group(sentence: Sentence) -> list[Features]:
+    """:func:`tagging` of every token."""
+    return [tagging(token) for token in sentence.doc]
+
+
+def syntax_group(sentence: Sentence) -> list[Features]:
+    """:func:`syntax` of every token."""
+    return [syntax(token, gov) for token, gov in zip(sentence.doc, sentence.governing)]
+
+
+def lexicon_group(sentence: Sentence) -> list[Features]:
+    """:func:`lexicon` of every token, with its gazetteer tag."""
+    return [lexicon(token, sentence.lexicons, tag, gov)
+            for token, tag, gov in zip(sentence.doc, sentence.gazetteer_tags, sentence.governing)]
+
+
+def context_group(sentence: Sentence) -> list[Features]:
+    """:func:`context`: the :data:`CONTEXT_KEYS` of the neighbours within the configured window."""
+    window = sentence.config.window
+    return [context(sentence.features, i, window, CONTEXT_KEYS) for i in range(len(sentence.doc))]
+
+
+def rules_group(sentence: Sentence) -> list[Features]:
+    """:func:`rule_trigger_tags`: the rule baseline's trigger decisions and each verb's spatial arguments."""
+    from trainer.features.rule_cues import rule_roles, rule_triggers  # loads spaCy, and imports this module
+
+    doc, lexicons = sentence.doc, sentence.lexicons
+    arguments = [rule_roles(doc, (t.i, t.i + 1), lexicons) if t.pos_ == "VERB" else [] for t in doc]
+    return rule_trigger_tags(doc, rule_triggers(doc, lexicons), arguments)
+
+
+def trigger_relative_group(sentence: Sentence, trigger: tuple[int, int]) -> list[Features]:
+    """:func:`trigger_relative_all` for one trigger."""
+    return trigger_relative_all(sentence.doc, trigger, sentence.lexicons)
+
+
+def rules_trigger_group(sentence: Sentence, trigger: tuple[int, int]) -> list[Features]:
+    """:func:`rule_role_tags`: the roles the rules give this trigger."""
+    from trainer.features.rule_cues import rule_roles
+
+    return rule_role_tags(sentence.doc, rule_roles(sentence.doc, trigger, sentence.lexicons))

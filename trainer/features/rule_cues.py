@@ -19,6 +19,7 @@ that made it (``subject``, ``object:departure``, ``prep:from``, ...).
 from __future__ import annotations
 
 from dataclasses import dataclass
+from weakref import WeakKeyDictionary
 
 from spacy.tokens import Doc, Token
 
@@ -143,8 +144,30 @@ def _prepositional_objects(head: Token, max_steps: int = 3) -> list[Token]:
     return found
 
 
+# Rule roles already found, per live doc: {(id(lexicons), first, end, len(doc)): (lexicons, roles)}. The token
+# features ask for every verb's roles and the role stage again for each predicted trigger; a doc's entries go with
+# the doc. Kept beside the docs, not in Doc.user_data, so nothing of it reaches a serialised or cached parse.
+_ROLES_SEEN: "WeakKeyDictionary[Doc, dict[tuple[int, int, int, int], tuple[Lexicons, tuple[RuleRole, ...]]]]" = (
+    WeakKeyDictionary())
+
+
 def rule_roles(doc: Doc, trigger: tuple[int, int], lexicons: Lexicons) -> list[RuleRole]:
-    """The roles the rules give one trigger (any token range, a rule trigger or not), sorted."""
+    """The roles the rules give one trigger (any token range, a rule trigger or not), sorted.
+
+    Found once per doc, trigger and lexicons while the doc lives (a parse is
+    not changed after it is made); a new list is returned each time.
+    """
+    seen = _ROLES_SEEN.get(doc)
+    if seen is None:
+        seen = _ROLES_SEEN.setdefault(doc, {})
+    key = (id(lexicons), int(trigger[0]), int(trigger[1]), len(doc))
+    entry = seen.get(key)
+    if entry is None or entry[0] is not lexicons:
+        entry = seen[key] = (lexicons, tuple(_find_roles(doc, trigger, lexicons)))
+    return list(entry[1])
+
+
+def _find_roles(doc: Doc, trigger: tuple[int, int], lexicons: Lexicons) -> list[RuleRole]:
     head = doc[trigger[0] : trigger[1]].root
     found: set[RuleRole] = set()
     if head.pos_ == "NOUN":

@@ -15,8 +15,12 @@ from __future__ import annotations
 import functools
 from importlib import resources
 from pathlib import Path
+from typing import TYPE_CHECKING
 
-from spacy.tokens import Token
+if TYPE_CHECKING:
+    from spacy.tokens import Token
+
+    from trainer.features.groups import Features, Sentence
 
 # lex_filenum -> lexicographer file, per WordNet's lexnames(5WN) manual page (nouns and verbs only).
 LEXNAMES: dict[int, str] = {
@@ -125,3 +129,9 @@ def wordnet_features(token: Token, classes: WordNetClasses) -> dict[str, str | b
             if name and name not in features:
                 features[name] = _first_class(child, classes)
     return features
+
+
+def wordnet_group(sentence: Sentence) -> list[Features]:
+    """:func:`wordnet_features` of every token, with the packaged classes."""
+    classes = packaged_classes()
+    return [wordnet_features(token, classes) for token in sentence.doc]

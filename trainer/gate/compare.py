@@ -19,18 +19,12 @@ from pathlib import Path
 from typing import Any
 
 from trainer.config import GateConfig
-from trainer.errors import ItinerantError
+from trainer.errors import GateInputError
 from trainer.outputs import check_output, write_text
 
 BASELINE_SCHEMA = "itinerant.gate-baseline"
 BASELINE_VERSION = 1
 PASS, REGRESSION, IMPROVED = "pass", "regression", "improved"
-
-
-class GateInputError(ItinerantError):
-    """A report or baseline that cannot be compared (exit code 2)."""
-
-    exit_code = 2
 
 
 @dataclass

@@ -1,8 +1,8 @@
 """The two-stage motion-event extractor: find triggers, then label roles for each.
 
 Which trigger finder and which role labeller are used comes from the config
-(``[trigger_model] kind`` and ``[role_model] kind``: ``crf``, ``logistic`` or
-``rules``), so any finder combines with any labeller.
+(``[trigger_model] kind`` and ``[role_model] kind``, entries of the table
+:data:`trainer.models.kinds.MODEL_KINDS`), so any finder combines with any labeller.
 """
 
 from __future__ import annotations
@@ -17,10 +17,10 @@ from trainer.corpus.auxiliary import TARGET_DOMAIN
 from trainer.corpus.records import Event, Record, RoleSpan
 from trainer.errors import ConfigError
 from trainer.features.extract import Featurizer
-from trainer.models.rules import RuleRoleLabeller, RuleTriggerFinder
+from trainer.models.kinds import MODEL_KINDS, RoleLabeller, TriggerFinder
 from trainer.models.search import f1_of_sets, inner_folds, search_stage
-from trainer.models.sequence import CRFTagger, LogisticTagger, marginal_spans
-from trainer.models.stages import TRIGGER_LABEL, CandidateRoleLinker, SequenceRoleLabeller, SequenceTriggerFinder
+from trainer.models.sequence import marginal_spans
+from trainer.models.stages import TRIGGER_LABEL, SequenceTriggerFinder
 from trainer.parsing.align import AlignmentReport, span_to_tokens, tokens_to_span
 
 
@@ -53,37 +53,14 @@ def gold_targets(records: Sequence[Record], docs: Sequence[Doc]) -> GoldTargets:
     return targets
 
 
-# Our optimiser names -> the CRF library's training algorithms.
-CRF_ALGORITHMS = {"lbfgs": "lbfgs", "sgd": "l2sgd", "averaged_perceptron": "ap", "passive_aggressive": "pa", "arow": "arow"}
+def build_trigger_finder(config: ModelConfig, featurizer: Featurizer) -> TriggerFinder:
+    """The trigger stage a model config names (its kind's entry in :data:`MODEL_KINDS`)."""
+    return MODEL_KINDS[config.kind].trigger_finder(config, featurizer)
 
 
-def _logistic_settings(config: ModelConfig) -> dict:
-    """Our logistic settings in the library's terms: C is the inverse of the regularisation strength."""
-    return {"C": 1.0 / config.regularisation, "class_weight": "balanced" if config.balance_classes else "none"}
-
-
-def _tagger(config: ModelConfig) -> CRFTagger | LogisticTagger:
-    if config.kind == "crf":
-        return CRFTagger(c1=config.l1_penalty, c2=config.l2_penalty, algorithm=CRF_ALGORITHMS[config.optimiser],
-                         max_iterations=config.iterations, threshold=config.threshold)
-    return LogisticTagger(**_logistic_settings(config), threshold=config.threshold)
-
-
-def build_trigger_finder(config: ModelConfig, featurizer: Featurizer):
-    """The trigger stage a config names."""
-    if config.kind == "rules":
-        return RuleTriggerFinder(featurizer.lexicons)
-    return SequenceTriggerFinder(_tagger(config), featurizer)
-
-
-def build_role_labeller(config: ModelConfig, featurizer: Featurizer):
-    """The role stage a config names: CRF over sequences, logistic over candidates, or rules."""
-    if config.kind == "rules":
-        return RuleRoleLabeller(featurizer.lexicons)
-    if config.kind == "logistic":
-        return CandidateRoleLinker(featurizer=featurizer, **_logistic_settings(config),
-                                   threshold=config.threshold)
-    return SequenceRoleLabeller(_tagger(config), featurizer)
+def build_role_labeller(config: ModelConfig, featurizer: Featurizer) -> RoleLabeller:
+    """The role stage a model config names (its kind's entry in :data:`MODEL_KINDS`)."""
+    return MODEL_KINDS[config.kind].role_labeller(config, featurizer)
 
 
 class MotionExtractor:

@@ -16,6 +16,7 @@ from trainer.corpus.reader import fingerprint
 from trainer.corpus.records import Record
 from trainer.features.extract import Featurizer
 from trainer.models.extractor import MotionExtractor
+from trainer.models.kinds import MODEL_KINDS
 from trainer.models.persist import load_model, save_model
 from trainer.parsing.align import AlignmentReport
 from trainer.parsing.parse import parse_records
@@ -81,6 +82,18 @@ def parser_for(config: ExperimentConfig) -> Language:
     return load_pipeline(config.parser.pipeline, groups=config.features.groups)
 
 
+def build_extractor(config: ExperimentConfig, *, nlp: Language | None = None,
+                    featurizer: Featurizer | None = None) -> MotionExtractor:
+    """The one assembly of a config's featurizer and two-stage extractor, unfitted: ``fit`` and every fold use it.
+
+    Pass ``featurizer`` to share one (lexicons and gazetteer loaded once) across folds; otherwise ``nlp``
+    (the config's parser by default) serves the gazetteer's matcher.
+    """
+    if featurizer is None:
+        featurizer = Featurizer.from_config(config.features, nlp or parser_for(config))
+    return MotionExtractor(config, featurizer)
+
+
 def fit_extractor(
     records: Sequence[Record],
     config: ExperimentConfig,
@@ -101,8 +114,7 @@ def fit_extractor(
         auxiliary = parse_auxiliary(config.auxiliary.corpora, target=records, nlp=nlp, parser=config.parser,
                                     roles=config.roles)
     train, train_docs, domains = with_auxiliary(records, docs, config, auxiliary)
-    featurizer = Featurizer.from_config(config.features, nlp)
-    extractor = MotionExtractor(config, featurizer).fit(train, train_docs, domains=domains)
+    extractor = build_extractor(config, nlp=nlp).fit(train, train_docs, domains=domains)
     return TrainedExtractor(extractor=extractor, config=config, pipeline_identity=pipeline_identity(nlp),
                             auxiliary=[auxiliary[s].corpus.to_dict() for s in config.auxiliary.corpora])
 
@@ -114,7 +126,7 @@ def require_training_data(records: Sequence[Record], config: ExperimentConfig) -
         raise CorpusError("no annotated record to train on"
                           + (f" (none of the {len(records)} record(s) has an \"events\" list)" if records else ""),
                           "train on annotated records; unannotated text is for `itinerant extract` or `suggest`")
-    learned = {config.trigger_model.kind, config.role_model.kind} - {"rules"}
+    learned = {kind for kind in (config.trigger_model.kind, config.role_model.kind) if MODEL_KINDS[kind].learned}
     if learned and not any(r.events for r in annotated):
         raise CorpusError(f"the {len(annotated)} annotated record(s) hold no motion event, so a "
                           f"{'/'.join(sorted(learned))} model has nothing to learn from",

@@ -49,7 +49,7 @@ from spacy.language import Language
 from spacy.tokens import Doc
 
 from trainer.corpus.records import Record
-from trainer.errors import ConfigError, ItinerantError
+from trainer.errors import ConfigError, NoUncertaintyError
 from trainer.models.sequence import CRFTagger, LogisticTagger
 from trainer.models.stages import CandidateRoleLinker, SequenceRoleLabeller, SequenceTriggerFinder
 from trainer.models.training import TrainedExtractor, parser_for
@@ -57,12 +57,6 @@ from trainer.parsing.parse import parse_records
 
 # One array per sentence (or per trigger), shape (decisions, labels); rows sum to 1.
 Decisions = np.ndarray
-
-
-class NoUncertaintyError(ItinerantError):
-    """The model has a stage (the rule baseline) that gives no probabilities to measure uncertainty with."""
-
-    exit_code = 2
 
 
 def least_confidence(decisions: Decisions) -> float:

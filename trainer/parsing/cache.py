@@ -12,8 +12,6 @@ from __future__ import annotations
 
 import hashlib
 import json
-import os
-import tempfile
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Callable, Sequence
@@ -21,6 +19,7 @@ from typing import Callable, Sequence
 from spacy.language import Language
 from spacy.tokens import Doc, DocBin
 
+from trainer.outputs import write_shared_bytes
 from trainer.parsing.pipeline import parse_texts, pipeline_identity
 
 CACHE_FORMAT = 1
@@ -38,17 +37,6 @@ class ParseStats:
     cached: int = 0
     parsed: int = 0
     rebuilt_shards: list[str] = field(default_factory=list)
-
-
-def _atomic_write(path: Path, data: bytes) -> None:
-    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
-    try:
-        with os.fdopen(fd, "wb") as out:
-            out.write(data)
-        os.replace(tmp, path)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
 
 
 class ParseCache:
@@ -116,11 +104,11 @@ class ParseCache:
         data = DocBin(attrs=ATTRS, docs=[d for _, d in keyed_docs]).to_bytes()
         digest = hashlib.sha256(data).hexdigest()
         shard = f"shard-{digest[:16]}.spacy"
-        _atomic_write(self.folder / shard, data)
+        write_shared_bytes(self.folder / shard, data)
         self.index["shards"][shard] = digest
         for position, (key, _) in enumerate(keyed_docs):
             self.index["entries"][key] = [shard, position]
-        _atomic_write(self.index_path, json.dumps(self.index, sort_keys=True).encode("utf-8"))
+        write_shared_bytes(self.index_path, json.dumps(self.index, sort_keys=True).encode("utf-8"))
 
 
 def parse_with_cache(

@@ -14,21 +14,10 @@ import spacy
 from spacy.language import Language
 from spacy.tokens import Doc
 
-from trainer.config import DEFAULT_PIPELINE
+from trainer.config import DEFAULT_PIPELINE, FEATURE_GROUPS
 from trainer.corpus.records import Record
 from trainer.errors import PipelineNotFoundError
 
-# Components each feature group reads; tok2vec feeds the tagger, parser and ner.
-COMPONENTS_BY_GROUP: dict[str, tuple[str, ...]] = {
-    "lexical": ("tok2vec", "tagger", "attribute_ruler", "lemmatizer"),
-    "tagging": ("tok2vec", "tagger", "attribute_ruler", "ner"),
-    "context": ("tok2vec", "tagger", "attribute_ruler", "lemmatizer"),
-    "syntax": ("tok2vec", "parser", "tagger", "attribute_ruler", "lemmatizer"),
-    "trigger_relative": ("tok2vec", "parser", "tagger", "attribute_ruler", "lemmatizer"),
-    "lexicon": ("tok2vec", "tagger", "attribute_ruler", "lemmatizer"),
-    "rules": ("tok2vec", "parser", "tagger", "attribute_ruler", "lemmatizer"),
-    "wordnet": ("tok2vec", "parser", "tagger", "attribute_ruler", "lemmatizer"),
-}
 # Candidate phrases, sentence splitting and lemmas need these whatever the groups.
 ALWAYS_NEEDED = ("tok2vec", "tagger", "parser", "attribute_ruler", "lemmatizer")
 
@@ -40,10 +29,11 @@ INSTALL_HINT = (
 
 
 def needed_components(groups: Iterable[str]) -> set[str]:
-    """The pipeline components the given feature groups (and the extractor itself) read."""
+    """The pipeline components the given feature groups (``components`` in their table entries) and the extractor read."""
     needed = set(ALWAYS_NEEDED)
     for group in groups:
-        needed.update(COMPONENTS_BY_GROUP.get(group, ()))
+        if group in FEATURE_GROUPS:
+            needed.update(FEATURE_GROUPS[group].components)
     return needed
 
 

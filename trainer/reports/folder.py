@@ -12,7 +12,7 @@ from trainer.reports.markdown import markdown_summary
 from trainer.outputs import output_lock, write_text
 
 if TYPE_CHECKING:  # only named in hints (see trainer.evaluation.summary)
-    from trainer.evaluation.crossval import CrossvalRun
+    from trainer.evaluation.runs import CrossvalRun
 
 REPORT_JSON = "report.json"
 RUN_INFO_JSON = "run-info.json"

@@ -744,7 +744,7 @@ def html_report(report: dict[str, Any], gold: Sequence[Record], predictions: dic
     ``gold`` the run's gold records; ``predictions`` maps each config name to
     its held-out predicted records (matched to gold by ``id``). Every annotated
     sentence is on the page, ``page_size`` to a page once the script runs. ``explanations`` (from
-    :meth:`trainer.evaluation.crossval.SystemRun.explanations`, per config) adds the features that
+    :meth:`trainer.evaluation.runs.SystemRun.explanations`, per config) adds the features that
     weighed most for each predicted span to its hover text.
     """
     body = (header_section(report) + figures_section(report)

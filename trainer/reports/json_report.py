@@ -22,7 +22,7 @@ from trainer.models.persist import library_versions
 from trainer.outputs import write_text
 
 if TYPE_CHECKING:  # only named in hints (see trainer.evaluation.summary)
-    from trainer.evaluation.crossval import CrossvalRun
+    from trainer.evaluation.runs import CrossvalRun
 
 SCHEMA = "itinerant.evaluation-report"
 SCHEMA_VERSION = 2

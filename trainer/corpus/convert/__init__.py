@@ -4,7 +4,7 @@ Every reader returns a :class:`Conversion` (the records plus the losses) and
 every writer returns its losses. A loss is one line ``"where: what could not be
 represented, and what was done"``; nothing is dropped or changed without one,
 so an empty list means the conversion was exact. Formats are picked by name
-from :data:`READERS` and :data:`WRITERS`::
+(or by a file's extension) from the table :data:`FORMATS`::
 
     result = convert_file(Path("train.jsonl"), Path("train.tsv"), from_format="jsonl", to_format="table")
     print(len(result.records), *result.losses, sep="\\n")
@@ -15,58 +15,23 @@ as losses), so what it writes reads back with the same inventory.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass
 from pathlib import Path
-from typing import Callable, Iterable, Iterator, TypeVar
+from typing import Callable, Iterable, Iterator
 
 from trainer.corpus import jsonl
+from trainer.corpus.convert.base import Conversion, writable
+from trainer.corpus.convert.columns import read_columns, write_columns
 from trainer.corpus.convert.inline import read_inline
+from trainer.corpus.convert.isospace import read_isospace
+from trainer.corpus.convert.table import read_table, write_table
 from trainer.corpus.reader import read_corpus
 from trainer.corpus.records import DEFAULT_ROLES, Record
-from trainer.errors import CorpusError, ItinerantError, UnreadableInputError
+from trainer.errors import CorpusError, UnknownFormatError, UnreadableInputError
 from trainer.outputs import check_output
 
-
-@dataclass
-class Conversion:
-    """Records read from a file, and what could not be carried over on the way."""
-
-    records: list[Record]
-    losses: list[str] = field(default_factory=list)
-
-
-class UnknownFormatError(ItinerantError):
-    """A format name (or a file extension standing for one) that no converter handles."""
-
-    exit_code = 2
-
-
-def writable(record: Record, roles: tuple[str, ...], *, keeps_confidence: bool) -> tuple[Record, list[str]]:
-    """The record as a writer may write it, and the losses that costs.
-
-    Role spans outside the inventory are left out; confidences are reported
-    when the target format has no place for them (they do not affect equality).
-    """
-    losses: list[str] = []
-    if not keeps_confidence and _has_confidence(record):
-        losses.append(f"{record.id}: confidence scores cannot be written in this format; left out")
-    if not record.events:
-        return record, losses
-    events = []
-    for number, event in enumerate(record.events, start=1):
-        for role in event.roles:
-            if role.role not in roles:
-                losses.append(
-                    f"{record.id}, event {number}: role {role.role!r} {list(role.span)} is not in the inventory "
-                    f"({', '.join(roles)}); left out"
-                )
-        events.append(replace(event, roles=tuple(r for r in event.roles if r.role in roles)))
-    return record.with_events(events), losses
-
-
-def _has_confidence(record: Record) -> bool:
-    events = record.events or ()
-    return any(e.confidence is not None or any(r.confidence is not None for r in e.roles) for e in events)
+Reader = Callable[..., Conversion]  # (path, *, roles) -> the records and the losses
+Writer = Callable[..., list[str]]  # (records, path, *, roles) -> the losses
 
 
 def _read_jsonl(path: Path, *, roles: tuple[str, ...] = DEFAULT_ROLES) -> Conversion:
@@ -96,54 +61,47 @@ def _read_inline(path: Path, *, roles: tuple[str, ...] = DEFAULT_ROLES) -> Conve
     return Conversion(records=read_inline(path, roles=roles))
 
 
-# The format modules import Conversion and writable from this package, so they are imported after those exist.
-from trainer.corpus.convert.columns import read_columns, write_columns  # noqa: E402
-from trainer.corpus.convert.isospace import read_isospace  # noqa: E402
-from trainer.corpus.convert.table import read_table, write_table  # noqa: E402
+@dataclass(frozen=True)
+class Format:
+    """One corpus format: how it is read, how it is written (``None``: it is not), the extensions standing for it."""
 
-READERS: dict[str, Callable[..., Conversion]] = {
-    "jsonl": _read_jsonl,
-    "columns": read_columns,
-    "table": read_table,
-    "isospace": read_isospace,
-    "inline": _read_inline,
-}
-WRITERS: dict[str, Callable[..., list[str]]] = {
-    "jsonl": _write_jsonl,
-    "columns": write_columns,
-    "table": write_table,
-}
+    reader: Reader | None
+    writer: Writer | None
+    extensions: tuple[str, ...]
 
 
-_Converter = TypeVar("_Converter")
-
-# The format a file extension stands for, when no format is named.
-EXTENSIONS: dict[str, str] = {
-    ".jsonl": "jsonl",
-    ".csv": "table",
-    ".tsv": "table",
-    ".cols": "columns",
-    ".bio": "columns",
-    ".conll": "columns",
-    ".xml": "isospace",
-    ".txt": "inline",
+# The formats by name; a new one is one entry here (and its module, docs and round-trip test).
+FORMATS: dict[str, Format] = {
+    "jsonl": Format(_read_jsonl, _write_jsonl, (".jsonl",)),
+    "columns": Format(read_columns, write_columns, (".cols", ".bio", ".conll")),
+    "table": Format(read_table, write_table, (".csv", ".tsv")),
+    "isospace": Format(read_isospace, None, (".xml",)),
+    "inline": Format(_read_inline, None, (".txt",)),
 }
 
 
-def format_for(path: Path, given: str | None, table: dict[str, _Converter], kind: str) -> str:
-    """The format named, or the one the extension of ``path`` stands for; refused when neither is usable."""
+def _handles(fmt: Format, kind: str) -> bool:
+    return (fmt.reader if kind == "input" else fmt.writer) is not None
+
+
+def format_for(path: Path, given: str | None, kind: str) -> Format:
+    """The ``kind`` (``"input"`` or ``"output"``) format named, or the one the extension of ``path`` stands for.
+
+    Refused when neither names a format of :data:`FORMATS` that reads (input) or writes (output).
+    """
     if kind == "input" and Path(path).is_dir():
         raise UnreadableInputError(f"{path}: is a folder, not a file", "convert one file at a time")
-    name = given or EXTENSIONS.get(Path(path).suffix.lower())
+    suffix = Path(path).suffix.lower()
+    name = given or next((name for name, fmt in FORMATS.items() if suffix in fmt.extensions), None)
     option = "--input-format" if kind == "input" else "--output-format"
     if name is None:
-        known = ", ".join(f"{ext} ({fmt})" for ext, fmt in EXTENSIONS.items() if fmt in table)
+        known = ", ".join(f"{ext} ({name})" for name, fmt in FORMATS.items() if _handles(fmt, kind) for ext in fmt.extensions)
         raise UnknownFormatError(f"{path}: cannot tell the {kind} format from the extension {Path(path).suffix or '(none)'!r}",
                                  f"use one of the extensions {known}, or name the format with {option}")
-    if name not in table:
+    if name not in FORMATS or not _handles(FORMATS[name], kind):
         raise UnknownFormatError(f"{path}: {name!r} is not an {kind} format" + ("" if given else " (from its extension)"),
-                                 f"{option} takes one of: {', '.join(table)}")
-    return name
+                                 f"{option} takes one of: {', '.join(n for n, fmt in FORMATS.items() if _handles(fmt, kind))}")
+    return FORMATS[name]
 
 
 def convert_file(
@@ -156,24 +114,23 @@ def convert_file(
 ) -> Conversion:
     """Read ``source`` in one format and write ``target`` in another.
 
-    A format left out is inferred from the file's extension (see :data:`EXTENSIONS`).
+    A format left out is inferred from the file's extension (``extensions`` in :data:`FORMATS`).
     Returns the records read and the losses of both steps (reading first).
     Both formats and the target are checked before anything is read or written.
     """
     check_output(target, inputs=[source], what="converted file")
-    reader = READERS[format_for(source, from_format, READERS, "input")]
-    writer = WRITERS[format_for(target, to_format, WRITERS, "output")]
+    reader = format_for(source, from_format, "input").reader
+    writer = format_for(target, to_format, "output").writer
+    assert reader is not None and writer is not None  # format_for checked
     conversion = reader(Path(source), roles=roles)
     written = writer(conversion.records, Path(target), roles=roles)
     return Conversion(records=conversion.records, losses=conversion.losses + written)
 
 
 __all__ = [
-    "READERS",
-    "WRITERS",
+    "FORMATS",
     "Conversion",
-    "EXTENSIONS",
-    "UnknownFormatError",
+    "Format",
     "convert_file",
     "format_for",
     "read_columns",

@@ -39,11 +39,11 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, Iterable
 
-from trainer.corpus.convert import Conversion, writable
+from trainer.corpus.convert.base import Conversion, writable
 from trainer.corpus.jsonl import read_text
 from trainer.corpus.records import DEFAULT_ROLES, Event, Offsets, Record, RoleSpan
-from trainer.corpus.validate import StrictJSONError, record_problems, strict_loads
-from trainer.errors import CorpusError
+from trainer.corpus.validate import record_problems, strict_loads
+from trainer.errors import CorpusError, StrictJSONError
 from trainer.outputs import write_text
 
 TRIGGER_LABEL = "V"
@@ -416,7 +416,7 @@ class _BlockReader:
         try:
             meta = strict_loads(value)
         except StrictJSONError as exc:
-            raise self.fail(line, f"'# meta' is not clean JSON ({exc})", "write it as one JSON object") from None
+            raise self.fail(line, f"'# meta' is not clean JSON ({exc.cause})", "write it as one JSON object") from None
         if not isinstance(meta, dict):
             raise self.fail(line, f"'# meta' is a JSON {type(meta).__name__}, not an object", "write it as one JSON object")
         return meta

@@ -21,7 +21,7 @@ from bisect import bisect_right
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from trainer.corpus.convert import Conversion
+from trainer.corpus.convert.base import Conversion
 from trainer.corpus.records import DEFAULT_ROLES, Event, Offsets, Record, RoleSpan
 from trainer.errors import CorpusError, UnreadableInputError
 

@@ -21,10 +21,10 @@ from typing import Any, Iterable, Iterator
 
 import pandas as pd
 
-from trainer.corpus.convert import Conversion, UnknownFormatError, writable
+from trainer.corpus.convert.base import Conversion, writable
 from trainer.corpus.records import DEFAULT_ROLES, Event, Offsets, Record, RoleSpan
-from trainer.corpus.validate import StrictJSONError, record_problems, strict_loads
-from trainer.errors import CorpusError, UnreadableInputError
+from trainer.corpus.validate import record_problems, strict_loads
+from trainer.errors import CorpusError, StrictJSONError, UnknownFormatError, UnreadableInputError
 from trainer.outputs import write_text
 
 COLUMNS = (
@@ -217,7 +217,7 @@ class _TableReader:
         try:
             meta = strict_loads(row["meta"])
         except StrictJSONError as exc:
-            self.error(row, f"meta is not clean JSON ({exc})")
+            self.error(row, f"meta is not clean JSON ({exc.cause})")
             return None
         if not isinstance(meta, dict):
             self.error(row, f"meta is a JSON {type(meta).__name__}; write a JSON object or leave it empty")

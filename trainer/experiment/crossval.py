@@ -1,96 +1,46 @@
-"""Cross-validation: several configs trained and tested on the same document folds.
+"""Running a cross-validation: several configs trained and tested on the same document folds.
 
 Every sentence is parsed once per run (through the parse cache) and the same
 parses serve all folds and all configs. Each config yields held-out
 predictions for every annotated record, from the full pipeline and with the
 gold triggers given, plus per-fold timings. Scoring is a separate step
-(:mod:`trainer.evaluation.summary`), so predictions can be rescored later.
+(:mod:`trainer.evaluation.summary`), so predictions can be rescored later; the run's
+records are in :mod:`trainer.evaluation.runs`.
 """
 
 from __future__ import annotations
 
 import time
-from dataclasses import dataclass, field
-from typing import Callable, Sequence
+from dataclasses import replace
+from pathlib import Path
+from typing import Any, Sequence
 
 from joblib import Parallel, delayed, parallel_config
 from spacy.language import Language
 from spacy.tokens import Doc
 
 from trainer.config import ExperimentConfig
+from trainer.corpus.reader import Corpus, expand_paths, read_corpus
 from trainer.corpus.records import Record
-from trainer.errors import ConfigError
-from trainer.evaluation.folds import FoldPlan
+from trainer.errors import ConfigError, CorpusError
+from trainer.evaluation.extrapolate import extrapolate_curve, extrapolation_report
+from trainer.evaluation.folds import FoldPlan, fixed_split, grouped_kfold, leave_one_book_out, leave_one_doc_out
+from trainer.evaluation.runs import CrossvalRun, FoldOutput, Progress, SystemRun
+from trainer.evaluation.summary import summarise
+from trainer.experiment.settings import FoldOptions, RunSettings, unique_names
 from trainer.features.extract import Featurizer
-from trainer.models.explain import SpanKey, span_explanations
-from trainer.models.extractor import MotionExtractor
-from trainer.models.training import ParsedAuxiliary, parse_auxiliary, parser_for, with_auxiliary
+from trainer.models.explain import span_explanations
+from trainer.models.training import ParsedAuxiliary, build_extractor, parse_auxiliary, parser_for, with_auxiliary
+from trainer.outputs import check_output, output_lock
 from trainer.parsing.parse import parse_records
-
-Progress = Callable[[str], None]
-
-
-@dataclass
-class FoldOutput:
-    """Held-out predictions of one config on one fold."""
-
-    config: str
-    repeat: int
-    fold: int
-    predicted: list[Record]
-    predicted_gold_triggers: list[Record]
-    train_seconds: float
-    predict_seconds: float
-    train_records: int  # of the target corpus; auxiliary corpora come on top
-    # record id -> (label, start, end) -> the features that weighed most for that predicted span (if asked for)
-    explanations: dict[str, dict[SpanKey, list[tuple[str, float]]]] = field(default_factory=dict)
-
-
-@dataclass
-class SystemRun:
-    """One config's held-out predictions over all folds (corpus order, per repeat)."""
-
-    name: str
-    config: ExperimentConfig
-    folds: list[FoldOutput] = field(default_factory=list)
-
-    def predictions(self, repeat: int = 0, *, gold_triggers: bool = False) -> list[Record]:
-        """All held-out predictions of one repeat, sorted by record id."""
-        out = [r for f in self.folds if f.repeat == repeat
-               for r in (f.predicted_gold_triggers if gold_triggers else f.predicted)]
-        return sorted(out, key=lambda r: r.id)
-
-    def explanations(self, repeat: int = 0) -> dict[str, dict[SpanKey, list[tuple[str, float]]]]:
-        """The span explanations of one repeat's held-out predictions, by record id (empty unless asked for)."""
-        return {rid: spans for f in self.folds if f.repeat == repeat for rid, spans in f.explanations.items()}
-
-
-@dataclass
-class CrossvalRun:
-    """Gold records, the fold plans and each config's held-out predictions."""
-
-    records: list[Record]
-    plans: list[FoldPlan]
-    systems: list[SystemRun]
-    parse_seconds: float
-    parsed: int
-    cached: int
-    docs: list[Doc] = field(default_factory=list, repr=False)
-    auxiliary: dict[str, ParsedAuxiliary] = field(default_factory=dict, repr=False)
-
-
-def _unique_names(configs: Sequence[ExperimentConfig]) -> list[str]:
-    names = [c.name for c in configs]
-    if len(set(names)) != len(names):
-        raise ConfigError(f"configs share a name: {names}", "give each config a distinct `name` (or file name)")
-    return names
+from trainer.reports.folder import write_report_folder
 
 
 def _run_fold(config: ExperimentConfig, featurizer: Featurizer, repeat: int, index: int, train: list[Record],
               train_docs: list[Doc], test: list[Record], test_docs: list[Doc],
               domains: list[str] | None, target_records: int, explain: bool = False) -> FoldOutput:
     started = time.perf_counter()
-    extractor = MotionExtractor(config, featurizer).fit(train, train_docs, domains=domains)
+    extractor = build_extractor(config, featurizer=featurizer).fit(train, train_docs, domains=domains)
     trained_at = time.perf_counter()
     predicted = extractor.predict(test, test_docs)
     given = extractor.predict(test, test_docs, gold_triggers=True)
@@ -127,7 +77,7 @@ def run_crossval(
     worker processes with joblib; ``scheduler`` (a Dask scheduler address) sends
     them to a Dask cluster instead. Results are the same either way.
     """
-    names = _unique_names(configs)
+    names = unique_names(configs)
     pipelines = {c.parser.pipeline for c in configs}
     if len(pipelines) > 1:
         raise ConfigError(f"configs use different parsers: {sorted(pipelines)}",
@@ -200,3 +150,69 @@ def _serial(tasks: list, progress: Progress | None) -> list[FoldOutput]:
             progress(f"[{number}/{len(tasks)}] {output.config} repeat {output.repeat} fold {output.fold}: "
                      f"trained on {output.train_records} records in {output.train_seconds:.1f} s")
     return outputs
+
+
+def plan_folds(records: Sequence[Record], options: FoldOptions) -> list[FoldPlan]:
+    """The fold plans for these records (docs never split)."""
+    docs = [r.doc for r in records]
+    if options.test_docs:
+        unknown = sorted(set(options.test_docs) - set(docs))
+        if unknown:
+            raise ConfigError(f"test doc(s) {unknown} are not in the corpus", f"choose from: {', '.join(sorted(set(docs)))}")
+        return [fixed_split(sorted(set(docs) - set(options.test_docs)), options.test_docs)]
+    if options.leave_one_doc_out:
+        return [leave_one_doc_out(docs)]
+    if options.leave_one_book_out:
+        return [leave_one_book_out(docs)]
+    return grouped_kfold(docs, options.folds, seed=options.seed, repeats=options.repeats)
+
+
+def read_run_corpus(corpus_paths: Sequence[Path], roles: tuple[str, ...], *, test_paths: Sequence[Path] = (),
+                    skip_bad: bool = False) -> tuple[Corpus, list[str]]:
+    """The corpus (plus held-out test files) and the doc names of the test files."""
+    corpus = read_corpus(corpus_paths, roles=roles, skip_bad=skip_bad)
+    if not test_paths:
+        return corpus, []
+    test = read_corpus(test_paths, roles=roles, skip_bad=skip_bad)
+    shared = sorted({r.id for r in corpus.records} & {r.id for r in test.records})
+    if shared:
+        raise CorpusError(f"{len(shared)} record id(s) are both in the corpus and in the test files, e.g. {shared[:5]}",
+                          "a held-out test file must not repeat training records")
+    combined = Corpus(corpus.records + test.records, corpus.files + test.files, corpus.skipped + test.skipped,
+                      corpus.warnings + test.warnings)
+    return combined, sorted({r.doc for r in test.records})
+
+
+def crossval_experiment(corpus_paths: Sequence[Path | str], settings: RunSettings, folder: Path | str, *,
+                        test_paths: Sequence[Path] = (), jobs: int = 1, scheduler: str | None = None,
+                        curve_shares: Sequence[float] = (), skip_bad: bool = False,
+                        progress: Progress | None = None) -> dict[str, Any]:
+    """Cross-validate every config of ``settings`` on the same folds (and a learning curve at ``curve_shares``),
+    write the report folder and return the report data.
+
+    The folder is checked and locked before anything is read, so a second run to it is refused at once.
+    """
+    from trainer.experiment.curve import learning_curve
+
+    corpus_paths, folder = [Path(p) for p in corpus_paths], Path(folder)
+    check_output(folder, inputs=[*corpus_paths, *settings.config_paths, *test_paths], folder=True, what="report folder")
+    with output_lock(folder):
+        started = time.perf_counter()
+        corpus, test_docs = read_run_corpus(corpus_paths, settings.roles, test_paths=test_paths, skip_bad=skip_bad)
+        options = replace(settings.folds, test_docs=tuple(test_docs)) if test_docs else settings.folds
+        records, unreviewed = corpus.training_records()
+        if unreviewed and progress:
+            progress(f"left out {len(unreviewed)} unreviewed pre-annotated record(s) (provenance 'predicted')")
+        plans = plan_folds(records, options)
+        evaluation = settings.evaluation
+        run = run_crossval(records, settings.configs, plans, jobs=jobs, scheduler=scheduler, progress=progress,
+                           explain=True)
+        summary = summarise(run, evaluation)
+        curve = None
+        if curve_shares:
+            curve = learning_curve(records, settings.configs, plans, shares=curve_shares, settings=evaluation,
+                                   jobs=jobs, scheduler=scheduler, docs=run.docs, progress=progress, full_run=run)
+            curve["extrapolation"] = extrapolation_report(extrapolate_curve(curve, seed=evaluation.seed))
+        files = [str(p) for p in expand_paths(list(corpus_paths) + list(test_paths))]
+        return write_report_folder(folder, run, summary, corpus_files=files, seconds=time.perf_counter() - started,
+                                   learning_curve=curve)

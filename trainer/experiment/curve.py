@@ -17,7 +17,8 @@ from trainer.config import ExperimentConfig
 from trainer.corpus.records import Record
 from trainer.errors import ConfigError
 from trainer.evaluation.bootstrap import bootstrap_f1s, interval_warning
-from trainer.evaluation.crossval import CrossvalRun, Progress, run_crossval
+from trainer.evaluation.runs import CrossvalRun, Progress
+from trainer.experiment.crossval import run_crossval
 from trainer.evaluation.folds import FoldPlan
 from trainer.evaluation.summary import EvaluationSettings, fold_counts, pool_folds
 

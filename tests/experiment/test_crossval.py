@@ -6,9 +6,9 @@ import pytest
 
 from trainer.config import config_from_dict
 from trainer.corpus.reader import read_corpus
-from trainer.evaluation import crossval as crossval_module
-from trainer.evaluation.crossval import run_crossval
-from trainer.evaluation.curve import learning_curve
+from trainer.experiment import crossval as crossval_module
+from trainer.experiment.crossval import run_crossval
+from trainer.experiment.curve import learning_curve
 from trainer.evaluation.folds import grouped_kfold
 from trainer.evaluation.summary import summarise
 from trainer.parsing import cache as cache_module

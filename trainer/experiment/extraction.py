@@ -1,0 +1,95 @@
+"""Extraction runs: a model applied to one book (optionally scored against its gold events) or to a whole library."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any, Callable, Sequence
+
+from trainer.errors import ConfigError
+
+
+@dataclass
+class ExtractOptions:
+    """How to read the inputs and run; the library-only options are ignored for one book."""
+
+    table: Path | None = None
+    input_format: str | None = None
+    doc: str | None = None
+    batch_size: int = 256
+    resume: bool = False
+    skip_bad: bool = False
+    compare: bool = False
+    jobs: int = 1
+    scheduler: str | None = None
+
+
+@dataclass
+class ExtractOutcome:
+    """One book's summary (``book``) or a library's (``library``), plus the comparison with gold when asked for."""
+
+    output: Path
+    book: Any = None  # trainer.models.apply.ExtractionSummary
+    library: Any = None  # trainer.models.library.LibrarySummary
+    comparison: dict[str, Any] | None = None
+    table: Path | None = None
+    skipped: list[Any] = field(default_factory=list)
+
+
+def extract(model: Path, sources: Sequence[Path], output: Path, options: ExtractOptions = ExtractOptions(), *,
+            on_progress: Callable[[int, float], None] | None = None,
+            on_book: Callable[..., None] | None = None) -> ExtractOutcome:
+    """Apply a model file to one input file (``output`` a file) or to a library of books (``output`` a folder).
+
+    Several inputs, a folder, or an output folder (existing, or named without
+    an extension) make a library run (:func:`trainer.models.library.extract_library`,
+    ``on_book`` called per finished book); otherwise one file is extracted
+    (:func:`trainer.models.apply.extract_file`, ``on_progress`` called per batch),
+    scored against its own events with ``compare``.
+    """
+    from trainer.models.library import extract_library, names_a_library
+
+    if names_a_library(sources, output):
+        if options.doc or options.compare:
+            raise ConfigError("--doc and --compare work on one input file, not a library",
+                              "extract that book on its own, with -o naming a .jsonl file")
+        summary = extract_library(model, sources, output, jobs=options.jobs, scheduler=options.scheduler,
+                                  resume=options.resume, batch_size=options.batch_size, skip_bad=options.skip_bad,
+                                  input_format=options.input_format, table=options.table, on_book=on_book)
+        skipped = [problem for result in summary.results for problem in result.skipped]
+        return ExtractOutcome(output, library=summary, table=summary.table, skipped=skipped)
+    return _extract_book(model, sources[0], output, options, on_progress)
+
+
+def _extract_book(model: Path, source: Path, output: Path, options: ExtractOptions,
+                  on_progress: Callable[[int, float], None] | None) -> ExtractOutcome:
+    from trainer.models.apply import check_source, extract_file
+    from trainer.models.persist import digest_path
+    from trainer.models.training import load_extractor
+    from trainer.outputs import check_output
+
+    fmt = options.input_format or ("jsonl" if source.suffix == ".jsonl" else "text")
+    if options.compare and fmt != "jsonl":
+        raise ConfigError("--compare needs JSONL input whose records carry events", "drop --compare for plain text")
+    check_source(source)
+    inputs = [model, digest_path(model), source]
+    check_output(output, inputs=inputs, what="extraction output")
+    if options.table:
+        check_output(options.table, inputs=[*inputs, output], what="event table")
+    trained, _ = load_extractor(model)
+    summary = extract_file(trained, source, output, input_format=fmt, doc_name=options.doc,
+                           batch_size=options.batch_size, resume=options.resume, skip_bad=options.skip_bad,
+                           on_progress=on_progress)
+    comparison = None
+    if options.compare:
+        from trainer.evaluation.summary import EvaluationSettings
+        from trainer.experiment.score import score_report
+
+        # Records skipped above count as missed.
+        comparison = score_report(source, output, roles=trained.roles, settings=EvaluationSettings(), allow_missing=True)
+    if options.table:
+        from trainer.corpus.convert import convert_file
+
+        convert_file(output, options.table, from_format="jsonl", to_format="table", roles=trained.roles)
+    return ExtractOutcome(output, book=summary, comparison=comparison, table=options.table,
+                          skipped=list(summary.skipped))

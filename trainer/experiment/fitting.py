@@ -1,0 +1,67 @@
+"""Fitting a model file: read the corpus, train the configured extractor, write the model and its digest."""
+
+from __future__ import annotations
+
+import time
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any, Sequence
+
+from trainer.corpus.auxiliary import local_paths
+from trainer.corpus.reader import expand_paths, read_corpus, skipped_summary
+from trainer.evaluation.runs import Progress
+from trainer.experiment.settings import RunSettings
+from trainer.outputs import check_output, output_lock
+
+
+@dataclass
+class FitOutcome:
+    """What ``fit`` did: the model written, what it was trained on, what was left out."""
+
+    model: Path
+    config: str
+    records: int
+    docs: int
+    metadata: dict[str, Any]
+    auxiliary: list[dict[str, Any]] = field(default_factory=list)
+    skipped: int = 0  # records with errors left out (skip_bad)
+    widened: int = 0  # gold spans widened to token boundaries
+    dropped: int = 0  # gold spans that could not be aligned
+
+
+def fit_model(corpus: Sequence[Path], output: Path, settings: RunSettings, *, skip_bad: bool = False, jobs: int = 1,
+              progress: Progress | None = None) -> FitOutcome:
+    """Train the first config of ``settings`` on the annotated records and write a model file (a pickle) with its digest.
+
+    The model file and its digest are checked to be writable (and not inputs)
+    before anything is read, and locked while training; an earlier model file
+    survives a failed or killed run. Unreviewed pre-annotated records are left out.
+    """
+    from joblib import parallel_config
+
+    from trainer.models.persist import digest_path
+    from trainer.models.training import fit_extractor, save_extractor
+
+    config = settings.configs[0]
+    say = progress or (lambda message: None)
+    auxiliary = local_paths(config.auxiliary.corpora)
+    inputs = [*corpus, *expand_paths(corpus), *settings.config_paths, *auxiliary, *expand_paths(auxiliary)]
+    check_output(output, inputs=inputs, what="model file")
+    check_output(digest_path(output), inputs=inputs, what="model digest file")
+    with output_lock(output):
+        data = read_corpus(corpus, roles=config.roles, skip_bad=skip_bad)
+        if data.skipped:
+            say(skipped_summary(data))
+        annotated, unreviewed = data.training_records()
+        if unreviewed:
+            say(f"left out {len(unreviewed)} pre-annotated record(s) nobody has reviewed (provenance 'predicted'): "
+                f"{', '.join(unreviewed[:10])}{' ...' if len(unreviewed) > 10 else ''}")
+        docs = len({r.doc for r in annotated})
+        say(f"training '{config.name}' on {len(annotated)} annotated record(s) from {docs} doc(s)")
+        started = time.perf_counter()
+        with parallel_config(n_jobs=jobs):
+            trained = fit_extractor(annotated, config)
+        metadata = save_extractor(trained, output, records=annotated, training_seconds=time.perf_counter() - started)
+    alignment = trained.alignment
+    return FitOutcome(output, config.name, len(annotated), docs, metadata, trained.auxiliary, len(data.skipped),
+                      alignment.widened if alignment else 0, alignment.dropped if alignment else 0)

@@ -1,0 +1,46 @@
+"""Itinerary runs: events read from records, ordered per doc into a table, optionally mapped as GeoJSON."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Sequence
+
+from trainer.annotation.geo import MapResult, build_geojson, read_gazetteer, write_geojson
+from trainer.annotation.itinerary import Itinerary, build_itinerary, write_itinerary
+from trainer.corpus.reader import expand_paths, read_corpus, skipped_summary
+from trainer.errors import ConfigError
+from trainer.outputs import check_output
+
+
+@dataclass
+class ItineraryOutcome:
+    """The itinerary written, the map when asked for, and the records left out as bad (``skip_bad``)."""
+
+    itinerary: Itinerary
+    mapped: MapResult | None
+    skipped: int = 0
+    skipped_note: str = ""  # one line per record left out, for the user
+
+
+def itinerary_files(records: Sequence[Path], output: Path, *, movers: Sequence[str] | None = None,
+                    carry_mover: bool = False, gazetteer: Path | None = None, geojson: Path | None = None,
+                    skip_bad: bool = False) -> ItineraryOutcome:
+    """Write the itinerary table of the records' events and, with a gazetteer, the route as GeoJSON.
+
+    Every output is checked before anything is read.
+    """
+    if bool(gazetteer) != bool(geojson):
+        raise ConfigError("--gazetteer and --geojson go together", "give both to write a map, or neither")
+    inputs = [*records, *expand_paths(records), *([gazetteer] if gazetteer else [])]
+    check_output(output, inputs=inputs, what="itinerary table")
+    if geojson:
+        check_output(geojson, inputs=[*inputs, output], what="GeoJSON file")
+    corpus = read_corpus(records, skip_bad=skip_bad)
+    route = build_itinerary(corpus.records, movers=list(movers) if movers else None, carry_mover=carry_mover)
+    write_itinerary(route, output)
+    mapped = None
+    if gazetteer and geojson:
+        mapped = build_geojson(route, read_gazetteer(gazetteer))
+        write_geojson(mapped, geojson)
+    return ItineraryOutcome(route, mapped, len(corpus.skipped), skipped_summary(corpus) if corpus.skipped else "")

@@ -1,0 +1,48 @@
+"""Suggesting the next batch to annotate: the sentences a model is least sure of, pre-annotated."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from pathlib import Path
+
+from trainer.errors import UnreadableInputError
+from trainer.outputs import check_output
+
+
+@dataclass
+class SuggestOutcome:
+    """How many records were suggested out of how many unannotated ones, and where the batch went."""
+
+    output: Path
+    suggested: int
+    candidates: int
+
+
+def suggest_to_file(model: Path, unlabeled: Path, output: Path, *, count: int = 50,
+                    measure: str = "least_confidence", diversity: float = 0.5) -> SuggestOutcome:
+    """Read unannotated sentences (JSONL records without events, or plain text), pick ``count`` of them by the
+    model's uncertainty spread over docs and trigger lemmas, and write them pre-annotated as canonical JSONL."""
+    from trainer.annotation.suggest import suggest_batch
+    from trainer.corpus.jsonl import write_jsonl
+    from trainer.corpus.reader import read_corpus
+    from trainer.models.persist import digest_path
+    from trainer.models.training import load_extractor, parser_for
+    from trainer.parsing.text import iter_paragraphs, sentence_records
+
+    check_output(output, inputs=[model, digest_path(model), unlabeled], what="batch file")
+    if not unlabeled.is_file():
+        raise UnreadableInputError(f"{unlabeled}: {'is a folder, not a file' if unlabeled.is_dir() else 'no such file'}",
+                                   "name a .jsonl or .txt file of unannotated sentences")
+    trained, _ = load_extractor(model)
+    nlp = parser_for(trained.config)
+    if unlabeled.suffix == ".jsonl":
+        records = [r for r in read_corpus([unlabeled], roles=trained.roles).records if not r.is_annotated]
+        docs = None
+    else:
+        pairs = list(sentence_records(nlp, iter_paragraphs(unlabeled), doc_name=unlabeled.stem, source=str(unlabeled)))
+        records, docs = [r for r, _ in pairs], [d for _, d in pairs]
+    digest = digest_path(model).read_text(encoding="ascii").split()[0][:12]
+    batch = suggest_batch(trained, records, count, measure=measure, diversity=diversity, nlp=nlp, docs=docs,
+                          model_name=f"{model.name} sha256:{digest}")
+    write_jsonl(batch, output)
+    return SuggestOutcome(output, len(batch), len(records))
