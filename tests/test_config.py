@@ -84,3 +84,15 @@ def test_our_model_settings_reach_the_libraries_under_their_names():
     # scikit-learn's LogisticRegression: C is the inverse of regularisation strength (scikit-learn docs)
     assert logistic_settings(logistic) == {"C": 0.25, "class_weight": "balanced"}
     assert logistic_settings(config_from_dict({}).role_model) == {"C": 1.0, "class_weight": "none"}
+
+
+def test_the_confidence_section_is_checked_like_every_other() -> None:
+    from trainer.config import config_from_dict
+
+    config = config_from_dict({"confidence": {"calibration": "platt", "thresholds": "precision", "target_precision": 0.8}})
+    assert (config.confidence.calibration, config.confidence.thresholds, config.confidence.target_precision) == \
+        ("platt", "precision", 0.8)
+    with pytest.raises(ConfigError, match="(?s)confidence.calibration.*isotonic"):
+        config_from_dict({"confidence": {"calibration": "beta"}})
+    with pytest.raises(ConfigError, match="target_precision"):
+        config_from_dict({"confidence": {"target_precision": 1.5}})

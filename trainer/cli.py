@@ -173,6 +173,9 @@ def fit(
     jobs: Annotated[int, typer.Option("--jobs", "-j", help="Worker processes for a hyperparameter search's candidates.")] = 1,
     aux: AuxOption = [],
     augment: AugmentOption = None,
+    calibrate: Annotated[Optional[str], typer.Option(help="Calibrate confidences on inner folds of the training docs: isotonic, platt or none (default: the config's [confidence]).")] = None,
+    thresholds: Annotated[Optional[str], typer.Option(help="Choose decision thresholds on inner folds: f1, precision (see --target-precision) or none (default: the config's).")] = None,
+    target_precision: Annotated[Optional[float], typer.Option(help="With --thresholds precision: the held-out precision each label's threshold must reach.")] = None,
 ) -> None:
     """Train an extractor on annotated records and write a model file with its digest.
 
@@ -181,7 +184,9 @@ def fit(
     from trainer.experiment.fitting import fit_model
     from trainer.experiment.settings import Overrides, resolve_settings
 
-    settings = resolve_settings([config] if config else [], Overrides(auxiliary=tuple(aux), augment=augment))
+    overrides = Overrides(auxiliary=tuple(aux), augment=augment, calibration=calibrate, thresholds=thresholds,
+                          target_precision=target_precision)
+    settings = resolve_settings([config] if config else [], overrides)
     outcome = fit_model(corpus, output, settings, skip_bad=skip_bad, jobs=jobs, progress=say)
     augmented = "; features augmented by corpus" if settings.configs[0].auxiliary.augment else ""
     for used in outcome.auxiliary:
@@ -189,6 +194,13 @@ def fit(
             f"{used['left_out_shared_with_target']} left out (doc or id shared with the training corpus){augmented}")
     if outcome.widened or outcome.dropped:
         say(f"alignment: {outcome.widened} span(s) widened to token boundaries, {outcome.dropped} dropped")
+    if outcome.held_out:
+        thresholds = ", ".join(f"{label} {value:.3f}" for label, value in outcome.thresholds.items()) or "none"
+        say(f"confidence: {', '.join(outcome.calibrated) or 'no label'} calibrated; thresholds: {thresholds}; "
+            f"learned from held-out predictions on inner folds {outcome.held_out}")
+    if outcome.unreached:
+        say(f"warning: no threshold reached the target precision for {', '.join(outcome.unreached)} on held-out "
+            "predictions; their threshold gives the best precision found")
     meta = outcome.metadata
     say(f"model written to {output} ({meta['payload_bytes']} bytes, {meta['training_seconds']} s); digest in {output}.sha256")
     if outcome.skipped:

@@ -86,6 +86,21 @@ class AuxiliaryConfig:
     augment: bool = False
 
 
+CALIBRATION_METHODS = ("none", "isotonic", "platt")
+THRESHOLD_OBJECTIVES = ("none", "f1", "precision")
+
+
+@dataclass
+class ConfidenceConfig:
+    """Calibrated confidences and decision thresholds, learned on inner folds of the training docs and kept in the
+    model (see :mod:`trainer.models.calibration`). ``thresholds``: keep predictions at the F1-optimal confidence or
+    at the lowest confidence whose held-out precision reaches ``target_precision``."""
+
+    calibration: str = "none"  # one of CALIBRATION_METHODS
+    thresholds: str = "none"  # one of THRESHOLD_OBJECTIVES
+    target_precision: float = 0.9
+
+
 # Evaluation defaults, in one place: configs, command-line options and library functions all take them from here.
 DEFAULT_SEED = 13
 DEFAULT_FOLDS = 5
@@ -123,6 +138,7 @@ class ExperimentConfig:
     trigger_model: ModelConfig = field(default_factory=ModelConfig)
     role_model: ModelConfig = field(default_factory=ModelConfig)
     auxiliary: AuxiliaryConfig = field(default_factory=AuxiliaryConfig)
+    confidence: ConfidenceConfig = field(default_factory=ConfidenceConfig)
     evaluation: EvaluationConfig = field(default_factory=EvaluationConfig)
     gate: GateConfig = field(default_factory=GateConfig)
 
@@ -143,6 +159,8 @@ _CHOICES: dict[str, Collection[str]] = {
     "evaluation.mode": SCORING_MODES,
     "evaluation.bootstrap_unit": ("doc", "record"),
     "gate.rule": ("drop", "interval"),
+    "confidence.calibration": CALIBRATION_METHODS,
+    "confidence.thresholds": THRESHOLD_OBJECTIVES,
 }
 _POSITIVE = {"parser.batch_size", "parser.workers", "evaluation.folds", "evaluation.repeats",
              "evaluation.bootstrap_samples", "trigger_model.iterations", "role_model.iterations"}
@@ -179,12 +197,13 @@ def _build(cls: type, data: dict[str, Any], where: str, source: str) -> Any:
             value = float(value)
         if not isinstance(value, expected) or (expected is int and isinstance(value, bool)):
             raise ConfigError(f"{source}: '{path}' must be {expected.__name__}, got {value!r}", "fix the value's type")
-        _check_value(path, value, source)
+        check_value(path, value, source)
         values[key] = value
     return cls(**values)
 
 
-def _check_value(path: str, value: Any, source: str) -> None:
+def check_value(path: str, value: Any, source: str) -> None:
+    """Refuse a value out of range for the key at ``path`` (``section.key``); ``source`` names where it came from."""
     if path in _CHOICES and value not in _CHOICES[path]:
         raise ConfigError(f"{source}: '{path}' = {value!r} is not allowed", f"use one of: {', '.join(_CHOICES[path])}")
     if path in _POSITIVE and value < 1:
@@ -214,7 +233,7 @@ def _check_value(path: str, value: Any, source: str) -> None:
                           "only the trigger stage tunes a decision threshold; set it under [trigger_model]")
     if path.endswith(".grid"):
         _check_grid(path, value, source)
-    if path.endswith("threshold") and not 0.0 <= value <= 1.0:
+    if path.endswith(("threshold", "target_precision")) and not 0.0 <= value <= 1.0:
         raise ConfigError(f"{source}: '{path}' must lie in [0, 1], got {value}", "a probability threshold")
 
 
@@ -231,7 +250,7 @@ def _check_grid(path: str, grid: dict[str, Any], source: str) -> None:
             raise ConfigError(f"{source}: '{path}.{key}' must be a non-empty list of values", f"e.g. {key} = [0.01, 0.1]")
         section = path.rsplit(".", 1)[0]
         for value in values:
-            _check_value(f"{section}.{key}", value, source)
+            check_value(f"{section}.{key}", value, source)
 
 
 def config_from_dict(data: dict[str, Any], source: str = "<config>") -> ExperimentConfig:

@@ -27,6 +27,10 @@ class FitOutcome:
     skipped: int = 0  # records with errors left out (skip_bad)
     widened: int = 0  # gold spans widened to token boundaries
     dropped: int = 0  # gold spans that could not be aligned
+    thresholds: dict[str, float] = field(default_factory=dict)  # learned by [confidence], per label
+    calibrated: list[str] = field(default_factory=list)  # labels whose confidences are calibrated
+    held_out: dict[str, int] = field(default_factory=dict)  # held-out predictions each label's policy came from
+    unreached: list[str] = field(default_factory=list)  # labels below the target precision at every threshold
 
 
 def fit_model(corpus: Sequence[Path], output: Path, settings: RunSettings, *, skip_bad: bool = False, jobs: int = 1,
@@ -63,5 +67,8 @@ def fit_model(corpus: Sequence[Path], output: Path, settings: RunSettings, *, sk
             trained = fit_extractor(annotated, config)
         metadata = save_extractor(trained, output, records=annotated, training_seconds=time.perf_counter() - started)
     alignment = trained.alignment
+    policy = trained.extractor.confidence_
     return FitOutcome(output, config.name, len(annotated), docs, metadata, trained.auxiliary, len(data.skipped),
-                      alignment.widened if alignment else 0, alignment.dropped if alignment else 0)
+                      alignment.widened if alignment else 0, alignment.dropped if alignment else 0,
+                      dict(policy.thresholds) if policy else {}, sorted(policy.calibrators) if policy else [],
+                      dict(policy.held_out) if policy else {}, list(policy.unreached) if policy else [])

@@ -9,11 +9,11 @@ are refused, naming the key, so no section is silently ignored.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field, fields
+from dataclasses import dataclass, field, fields, replace
 from pathlib import Path
 from typing import Any, Sequence
 
-from trainer.config import EvaluationConfig, ExperimentConfig, _check_value, add_auxiliary, load_config
+from trainer.config import ConfidenceConfig, EvaluationConfig, ExperimentConfig, add_auxiliary, check_value, load_config
 from trainer.corpus.auxiliary import check_sources
 from trainer.errors import ConfigError
 from trainer.evaluation.summary import EvaluationSettings
@@ -45,10 +45,18 @@ class Overrides:
     test_docs: tuple[str, ...] = ()
     auxiliary: tuple[str, ...] = ()
     augment: bool | None = None
+    calibration: str | None = None
+    thresholds: str | None = None
+    target_precision: float | None = None
 
     def evaluation(self) -> dict[str, Any]:
         """The ``[evaluation]`` keys this sets, by name."""
         names = {f.name for f in fields(EvaluationConfig)}
+        return {key: value for key, value in self.__dict__.items() if key in names and value is not None}
+
+    def confidence(self) -> dict[str, Any]:
+        """The ``[confidence]`` keys this sets, by name."""
+        names = {f.name for f in fields(ConfidenceConfig)}
         return {key: value for key, value in self.__dict__.items() if key in names and value is not None}
 
 
@@ -74,11 +82,14 @@ def resolve_settings(config_paths: Sequence[Path | str] = (), overrides: Overrid
     ``[evaluation]`` sections disagree on a key the command line does not set.
     """
     paths = [Path(p) for p in config_paths]
-    for key, value in overrides.evaluation().items():
-        _check_value(f"evaluation.{key}", value, f"--{key.replace('_', '-')}")
+    for section, values in (("evaluation", overrides.evaluation()), ("confidence", overrides.confidence())):
+        for key, value in values.items():
+            check_value(f"{section}.{key}", value, f"--{key.replace('_', '-')}")
     if overrides.folds is not None and overrides.folds < 2:
         raise ConfigError(f"--folds must be at least 2, got {overrides.folds}", "e.g. --folds 5")
     configs = [add_auxiliary(load_config(p), overrides.auxiliary, overrides.augment) for p in paths or [None]]
+    if overrides.confidence():
+        configs = [replace(c, confidence=replace(c.confidence, **overrides.confidence())) for c in configs]
     check_sources([source for c in configs for source in c.auxiliary.corpora])
     roles = configs[0].roles
     if any(c.roles != roles for c in configs):

@@ -7,16 +7,17 @@ Which trigger finder and which role labeller are used comes from the config
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Sequence
 
 from spacy.tokens import Doc
 
-from trainer.config import ExperimentConfig, ModelConfig
+from trainer.config import ConfidenceConfig, ExperimentConfig, ModelConfig
 from trainer.corpus.auxiliary import TARGET_DOMAIN
 from trainer.corpus.records import Event, Record, RoleSpan
 from trainer.errors import ConfigError
 from trainer.features.extract import Featurizer
+from trainer.models.calibration import ConfidencePolicy, empty_points, held_out_points
 from trainer.models.kinds import MODEL_KINDS, RoleLabeller, TriggerFinder
 from trainer.models.search import f1_of_sets, inner_folds, search_stage
 from trainer.models.sequence import marginal_spans
@@ -79,6 +80,7 @@ class MotionExtractor:
         self.search_results_: dict[str, list[dict]] = {}
         self.domains_: list[str] = []
         self.threshold_scores_: dict[float, float] = {}
+        self.confidence_: ConfidencePolicy | None = None
 
     def _search(self, records: Sequence[Record], docs: Sequence[Doc], targets: GoldTargets) -> None:
         def trigger_f1(candidate: ModelConfig, train: list[int], test: list[int]) -> float:
@@ -162,20 +164,64 @@ class MotionExtractor:
         features = self._features(docs, domains if augmenting else None)
         if self.config.trigger_model.tune_threshold and isinstance(self.trigger_finder, SequenceTriggerFinder):
             self._tune_trigger_threshold(records, docs, targets, features, domains)
+        if self.config.confidence.calibration != "none" or self.config.confidence.thresholds != "none":
+            self._learn_confidence(records, docs, targets, domains)
         self.trigger_finder.fit(docs, targets.triggers, features)
         with_triggers = [i for i, ts in enumerate(targets.triggers) if ts]
         self.role_labeller.fit([docs[i] for i in with_triggers], [targets.triggers[i] for i in with_triggers],
                                [targets.roles[i] for i in with_triggers], [features[i] for i in with_triggers])
         return self
 
-    def predict(self, records: Sequence[Record], docs: Sequence[Doc], *, gold_triggers: bool = False) -> list[Record]:
-        """Records carrying predicted events with confidences (``gold_triggers``: label roles of the gold triggers)."""
+    def _learn_confidence(self, records: Sequence[Record], docs: Sequence[Doc], targets: GoldTargets,
+                          domains: Sequence[str] | None) -> None:
+        """Learn the ``[confidence]`` calibration and thresholds from held-out predictions on inner folds.
+
+        Each inner fold trains a fresh extractor (same config, without ``[confidence]``) on the other docs,
+        auxiliary corpora included, and predicts its held-out target docs; the pooled held-out predictions
+        give :class:`ConfidencePolicy` its points. The policy is kept in ``confidence_``.
+        """
+        settings = self.config.confidence
+        plain = replace(self.config, confidence=ConfidenceConfig())
+        points = empty_points(self.config.roles)
+        for train, test in inner_folds(records):
+            test = [i for i in test if domains is None or domains[i] == TARGET_DOMAIN]
+            if not test or not train:
+                continue
+            inner = MotionExtractor(plain, self.featurizer).fit(
+                [records[i] for i in train], [docs[i] for i in train],
+                domains=[domains[i] for i in train] if domains is not None else None)
+            triggers, roles = inner.raw_predictions([docs[i] for i in test])
+            found = held_out_points([targets.triggers[i] for i in test], [targets.roles[i] for i in test],
+                                    triggers, roles, self.config.roles)
+            for label, held in found.items():
+                points[label].confidence += held.confidence
+                points[label].correct += held.correct
+                points[label].gold += held.gold
+        self.confidence_ = ConfidencePolicy.learn(points, calibration=settings.calibration,
+                                                  objective=settings.thresholds,
+                                                  target_precision=settings.target_precision)
+
+    def raw_predictions(self, docs: Sequence[Doc], gold: Sequence[list[tuple[int, int]]] | None = None
+                        ) -> tuple[list[list[tuple[int, int, float]]], list[list[list[tuple[int, int, str, float]]]]]:
+        """Both stages' token-range predictions with their own confidences, before any ``[confidence]`` policy
+        (``gold``: label the roles of these gold triggers instead of predicted ones)."""
         features = self.prediction_features(docs)
-        if gold_triggers:
-            triggers = [[(f, e, 1.0) for f, e in ts] for ts in gold_targets(records, docs).triggers]
+        if gold is not None:
+            triggers = [[(f, e, 1.0) for f, e in ts] for ts in gold]
         else:
             triggers = self.trigger_finder.predict(docs, features)
-        roles = self.role_labeller.predict(docs, triggers, features)
+        return triggers, self.role_labeller.predict(docs, triggers, features)
+
+    def predict(self, records: Sequence[Record], docs: Sequence[Doc], *, gold_triggers: bool = False) -> list[Record]:
+        """Records carrying predicted events with confidences (``gold_triggers``: label roles of the gold triggers).
+
+        With a ``[confidence]`` policy, confidences are calibrated and predictions below their threshold dropped.
+        """
+        gold = gold_targets(records, docs).triggers if gold_triggers else None
+        triggers, roles = self.raw_predictions(docs, gold)
+        policy = getattr(self, "confidence_", None)  # absent in model files written before calibration
+        if policy is not None:
+            triggers, roles = policy.apply(triggers, roles, given_triggers=gold_triggers)
         out = []
         for record, doc, sentence_triggers, sentence_roles in zip(records, docs, triggers, roles):
             events = [
