@@ -26,7 +26,7 @@ from trainer.features.extract import DOMAIN_KEY, Featurizer, augment
 from trainer.features.groups import governing_preposition
 from trainer.features.rule_cues import rule_roles
 from trainer.models.candidates import candidate_phrases
-from trainer.models.sequence import CRFTagger, LogisticTagger, marginal_spans
+from trainer.models.sequence import CRFTagger, LogisticTagger, marginal_spans, vectorize
 from trainer.parsing.align import bio_tags
 
 TokenRange = tuple[int, int]
@@ -170,7 +170,7 @@ class CandidateRoleLinker(BaseEstimator):
         for spans, rows in self.candidate_pairs(docs, triggers, features):
             chosen = []
             if rows:
-                for span, probs in zip(spans, self.model_.predict_proba(self.vectorizer_.transform(rows))):
+                for span, probs in zip(spans, self.model_.predict_proba(vectorize(self.vectorizer_, rows))):
                     best = int(np.argmax(probs))
                     if classes[best] != NONE_LABEL and probs[best] >= self.threshold:
                         chosen.append((span[0], span[1], classes[best], float(probs[best])))
