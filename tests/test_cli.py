@@ -247,3 +247,14 @@ def test_a_wrong_mode_or_conflicting_configs_stop_crossval_before_any_work(tmp_p
     assert result.exit_code == 2
     assert "evaluation.folds = 3" in result.output and str(second) in result.output
     assert not out.exists()
+
+
+@pytest.mark.parametrize("option, value, named", [("--calibration", "beta", "none, isotonic, platt"),
+                                                 ("--thresholds", "maybe", "none, f1, precision"),
+                                                 ("--target-precision", "1.5", "must lie in [0, 1]")])
+def test_fit_refuses_a_bad_confidence_option_before_training(tmp_path, demo_train, option, value, named):
+    model = tmp_path / "m.itin"
+    result = runner.invoke(app, ["fit", str(demo_train), "-o", str(model), option, value])
+    assert result.exit_code == 2
+    assert option in result.output and named in result.output and "Traceback" not in result.output
+    assert not model.exists()

@@ -173,7 +173,7 @@ def fit(
     jobs: Annotated[int, typer.Option("--jobs", "-j", help="Worker processes for a hyperparameter search's candidates.")] = 1,
     aux: AuxOption = [],
     augment: AugmentOption = None,
-    calibrate: Annotated[Optional[str], typer.Option(help="Calibrate confidences on inner folds of the training docs: isotonic, platt or none (default: the config's [confidence]).")] = None,
+    calibration: Annotated[Optional[str], typer.Option(help="Calibrate confidences on inner folds of the training docs: isotonic, platt or none (default: the config's [confidence]).")] = None,
     thresholds: Annotated[Optional[str], typer.Option(help="Choose decision thresholds on inner folds: f1, precision (see --target-precision) or none (default: the config's).")] = None,
     target_precision: Annotated[Optional[float], typer.Option(help="With --thresholds precision: the held-out precision each label's threshold must reach.")] = None,
 ) -> None:
@@ -184,7 +184,7 @@ def fit(
     from trainer.experiment.fitting import fit_model
     from trainer.experiment.settings import Overrides, resolve_settings
 
-    overrides = Overrides(auxiliary=tuple(aux), augment=augment, calibration=calibrate, thresholds=thresholds,
+    overrides = Overrides(auxiliary=tuple(aux), augment=augment, calibration=calibration, thresholds=thresholds,
                           target_precision=target_precision)
     settings = resolve_settings([config] if config else [], overrides)
     outcome = fit_model(corpus, output, settings, skip_bad=skip_bad, jobs=jobs, progress=say)

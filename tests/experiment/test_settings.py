@@ -54,7 +54,7 @@ def test_a_second_configs_evaluation_section_is_not_silently_ignored(tmp_path: P
 
 @pytest.mark.parametrize("overrides, named", [
     (Overrides(mode="fuzzy"), "--mode"),
-    (Overrides(bootstrap_samples=0), "--bootstrap-samples"),
+    (Overrides(bootstrap_samples=0), "--bootstrap"),
     (Overrides(folds=1), "--folds"),
     (Overrides(leave_one_doc_out=True, leave_one_book_out=True), "one way to split"),
 ])

@@ -19,6 +19,10 @@ from trainer.errors import ConfigError
 from trainer.evaluation.summary import EvaluationSettings
 
 
+# Command-line options whose name is not the setting's (the others are --<key with dashes>).
+OPTION_NAMES = {"bootstrap_samples": "--bootstrap"}
+
+
 @dataclass
 class FoldOptions:
     """How to split the corpus: K grouped folds (repeated), one doc or book out at a time, or a fixed split."""
@@ -84,7 +88,7 @@ def resolve_settings(config_paths: Sequence[Path | str] = (), overrides: Overrid
     paths = [Path(p) for p in config_paths]
     for section, values in (("evaluation", overrides.evaluation()), ("confidence", overrides.confidence())):
         for key, value in values.items():
-            check_value(f"{section}.{key}", value, f"--{key.replace('_', '-')}")
+            check_value(f"{section}.{key}", value, OPTION_NAMES.get(key, f"--{key.replace('_', '-')}"))
     if overrides.folds is not None and overrides.folds < 2:
         raise ConfigError(f"--folds must be at least 2, got {overrides.folds}", "e.g. --folds 5")
     configs = [add_auxiliary(load_config(p), overrides.auxiliary, overrides.augment) for p in paths or [None]]
