@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import pytest
+
 import ast
 import builtins
 import inspect
@@ -49,3 +51,19 @@ def test_an_error_carries_cause_and_fix() -> None:
     assert (error.cause, error.fix) == ("malformed JSON: Expecting value at column 3",
                                         "each line must be one complete JSON object")
     assert str(error) == "malformed JSON: Expecting value at column 3\n  fix: each line must be one complete JSON object"
+
+
+def test_opening_names_the_path_what_was_wrong_and_the_fix(tmp_path) -> None:
+    from trainer.errors import GateInputError, UnreadableInputError, opening
+
+    with pytest.raises(UnreadableInputError) as missing:
+        with opening(tmp_path / "gone.jsonl", expected="a .jsonl file"):
+            open(tmp_path / "gone.jsonl")
+    assert str(missing.value) == f"{tmp_path / 'gone.jsonl'}: no such file\n  fix: check the path"
+    with pytest.raises(GateInputError) as folder:
+        with opening(tmp_path, expected="the JSON file", what="baseline", error=GateInputError):
+            (tmp_path).read_text()
+    assert str(folder.value) == f"{tmp_path}: is a folder, not a baseline\n  fix: name the JSON file"
+    with pytest.raises(ValueError):  # the caller's own errors pass through
+        with opening(tmp_path, expected="x"):
+            raise ValueError("not ours")

@@ -8,6 +8,10 @@ traceback.
 
 from __future__ import annotations
 
+from contextlib import contextmanager
+from pathlib import Path
+from typing import Iterator
+
 
 class ItinerantError(Exception):
     """Base class: a problem the user can fix. ``exit_code`` is what the CLI returns."""
@@ -106,3 +110,22 @@ class StrictJSONError(ItinerantError):
     """
 
     exit_code = 1
+
+
+@contextmanager
+def opening(path: Path | str, *, expected: str, what: str = "file", missing_fix: str = "check the path",
+            error: type[ItinerantError] = UnreadableInputError) -> Iterator[None]:
+    """Turn the operating system's refusals to open ``path`` into a located error the CLI prints.
+
+    Missing: ``<path>: no such <what>``; a folder: ``<path>: is a folder, not a <what>`` with the fix
+    ``name <expected>``; any other refusal (permissions, a device): ``<path>: cannot open (<reason>)``.
+    Wrap only the opening or reading call, so errors of the caller's own work pass through.
+    """
+    try:
+        yield
+    except FileNotFoundError:
+        raise error(f"{path}: no such {what}", missing_fix) from None
+    except IsADirectoryError:
+        raise error(f"{path}: is a folder, not a {what}", f"name {expected}") from None
+    except OSError as exc:
+        raise error(f"{path}: cannot open ({exc.strerror})", "check the path and permissions") from None

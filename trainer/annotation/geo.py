@@ -35,7 +35,7 @@ from pathlib import Path
 from typing import Any
 
 from trainer.annotation.itinerary import PLACE_ROLES, Itinerary, ItineraryRow, fold, table_separator
-from trainer.errors import GazetteerError, UnreadableInputError
+from trainer.errors import GazetteerError, UnreadableInputError, opening
 from trainer.outputs import write_text
 
 REQUIRED_COLUMNS = ("name", "latitude", "longitude")
@@ -133,12 +133,8 @@ def read_gazetteer(path: Path | str) -> Gazetteer:
     """
     path = Path(path)
     separator = table_separator(path)
-    try:
+    with opening(path, expected="a .tsv or .csv file", missing_fix="check the gazetteer path"):
         handle = open(path, encoding="utf-8-sig", newline="")
-    except FileNotFoundError:
-        raise UnreadableInputError(f"{path}: no such file", "check the gazetteer path") from None
-    except IsADirectoryError:
-        raise UnreadableInputError(f"{path}: is a folder, not a file", "name a .tsv or .csv file") from None
     places: list[Place] = []
     errors: list[str] = []
     with handle:

@@ -12,18 +12,15 @@ from pathlib import Path
 from typing import Any, Iterable, Iterator
 
 from trainer.corpus.records import Event, Record, RoleSpan
-from trainer.errors import UnreadableInputError
+from trainer.errors import UnreadableInputError, opening
 from trainer.outputs import atomic_output
 
 
 def read_text(path: Path, *, what: str = "a file") -> str:
     """The whole text of an annotation file in UTF-8 (a byte-order mark dropped), or a located error."""
     try:
-        return Path(path).read_text(encoding="utf-8-sig")
-    except FileNotFoundError:
-        raise UnreadableInputError(f"{path}: no such file", "check the path") from None
-    except IsADirectoryError:
-        raise UnreadableInputError(f"{path}: is a folder, not a file", f"name {what}") from None
+        with opening(path, expected=what):
+            return Path(path).read_text(encoding="utf-8-sig")
     except UnicodeDecodeError:
         raise UnreadableInputError(f"{path}: not UTF-8 text", "re-save the file as UTF-8") from None
 
@@ -33,14 +30,8 @@ def iter_lines(path: Path) -> Iterator[tuple[int, str]]:
 
     Line numbers are 1-based and count blank lines, so they match an editor.
     """
-    try:
+    with opening(path, expected="a .jsonl file"):
         handle = open(path, encoding="utf-8-sig", newline=None)
-    except FileNotFoundError:
-        raise UnreadableInputError(f"{path}: no such file", "check the path") from None
-    except IsADirectoryError:
-        raise UnreadableInputError(f"{path}: is a folder, not a file", "name a .jsonl file") from None
-    except OSError as exc:
-        raise UnreadableInputError(f"{path}: cannot open ({exc.strerror})", "check permissions") from None
     with handle:
         try:
             for number, line in enumerate(handle, start=1):

@@ -19,7 +19,7 @@ from pathlib import Path
 from typing import Any
 
 from trainer.config import GateConfig
-from trainer.errors import GateInputError
+from trainer.errors import GateInputError, opening
 from trainer.outputs import check_output, write_text
 
 BASELINE_SCHEMA = "itinerant.gate-baseline"
@@ -59,13 +59,9 @@ class GateResult:
 
 def read_json(path: Path, what: str) -> dict[str, Any]:
     try:
-        data = json.loads(Path(path).read_text(encoding="utf-8"))
-    except FileNotFoundError:
-        raise GateInputError(f"{path}: no such {what}", "check the path") from None
-    except IsADirectoryError:
-        raise GateInputError(f"{path}: is a folder, not a {what} file", "name the JSON file") from None
-    except OSError as exc:
-        raise GateInputError(f"{path}: cannot read the {what} ({exc.strerror})", "check the path and permissions") from None
+        with opening(path, expected="the JSON file", what=what, error=GateInputError):
+            text = Path(path).read_text(encoding="utf-8")
+        data = json.loads(text)
     except RecursionError:
         raise GateInputError(f"{path}: nested too deeply to be a {what}", f"regenerate the {what}") from None
     except ValueError as exc:

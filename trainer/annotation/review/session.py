@@ -51,7 +51,7 @@ from trainer.corpus.provenance import (
 )
 from trainer.corpus.records import DEFAULT_ROLES, Record
 from trainer.corpus.validate import FileCheck, check_line
-from trainer.errors import CorpusError, StaleCopyError, UnreadableInputError
+from trainer.errors import CorpusError, StaleCopyError, opening
 from trainer.outputs import write_text
 
 CANONICAL_KEYS = ("id", "doc", "text", "events", "meta")
@@ -172,12 +172,8 @@ class ReviewFile:
         The bytes are read every time; they are parsed and checked again only
         when their version differs from the last one read or written here.
         """
-        try:
+        with opening(self.path, expected="one .jsonl file to review"):
             data = self.path.read_bytes()
-        except FileNotFoundError:
-            raise UnreadableInputError(f"{self.path}: no such file", "check the path") from None
-        except IsADirectoryError:
-            raise UnreadableInputError(f"{self.path}: is a folder, not a file", "name one .jsonl file to review") from None
         if self._last is not None and self._last.version == file_version(data):
             return self._last
         lines = list(iter_lines(self.path))

@@ -23,7 +23,7 @@ from pathlib import Path
 
 from trainer.corpus.convert.base import Conversion
 from trainer.corpus.records import DEFAULT_ROLES, Event, Offsets, Record, RoleSpan
-from trainer.errors import CorpusError, UnreadableInputError
+from trainer.errors import CorpusError, UnreadableInputError, opening
 
 ROLE_OF_ATTRIBUTE: dict[str, str] = {
     "mover": "mover",
@@ -135,11 +135,8 @@ def _trim(text: str, span: Offsets) -> Offsets | None:
 def _parse(path: Path) -> tuple[str, ET.Element]:
     """The document text and the ``<TAGS>`` element."""
     try:
-        root = ET.parse(path).getroot()
-    except FileNotFoundError:
-        raise UnreadableInputError(f"{path}: no such file", "check the path") from None
-    except IsADirectoryError:
-        raise UnreadableInputError(f"{path}: is a folder, not a file", "name an ISO-Space XML file") from None
+        with opening(path, expected="an ISO-Space XML file"):
+            root = ET.parse(path).getroot()
     except LookupError as exc:  # the XML declaration names an encoding Python does not know
         raise UnreadableInputError(f"{path}: the XML declaration names an unknown encoding ({exc})",
                                    'write encoding="UTF-8" in the first line') from None
