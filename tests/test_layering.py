@@ -69,3 +69,15 @@ def test_every_cli_command_is_a_thin_call_into_the_library() -> None:
             lengths[node.name] = node.end_lineno - body[0].lineno + 1
     assert len(lengths) >= 15
     assert {name: n for name, n in lengths.items() if n > 25} == {}
+
+
+def test_every_public_name_resolves_and_importing_the_package_stays_light() -> None:
+    import trainer
+
+    assert all(getattr(trainer, name) is not None for name in trainer.__all__)
+    code = "import sys, json, trainer; print(json.dumps(sorted(sys.modules)))"
+    loaded = set(json.loads(subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                                           check=True).stdout))
+    assert not {"spacy", "sklearn", "trainer.config"} & loaded
+    with pytest.raises(AttributeError):
+        trainer.no_such_name  # noqa: B018
