@@ -121,3 +121,11 @@ def test_a_model_file_from_before_calibration_still_predicts(calibrated) -> None
     expected = plain.extractor.predict(test, test_docs)
     del plain.extractor.confidence_  # as unpickled from a file written before the attribute existed
     assert plain.extractor.predict(test, test_docs) == expected
+
+
+def test_the_threshold_sweep_keeps_ties_together() -> None:
+    from trainer.models.calibration import threshold_sweep
+
+    thresholds, kept, right = threshold_sweep([0.8, 0.9, 0.5, 0.8], [False, True, False, True])
+    assert (thresholds.tolist(), kept.tolist(), right.tolist()) == ([0.9, 0.8, 0.5], [1, 3, 4], [1, 2, 2])
+    assert [a.tolist() for a in threshold_sweep([], [])] == [[], [], []]

@@ -32,6 +32,7 @@ from trainer.corpus.records import Record
 from trainer.errors import ConfigError
 from trainer.evaluation.scoring import (TRIGGER, check_roles, match_instances, pair_by_id, role_instances,
                                         trigger_instances)
+from trainer.models.calibration import threshold_sweep
 
 DEFAULT_BINS = 10
 ALL_ROLES = "all_roles"
@@ -121,18 +122,13 @@ def reliability(scored: Scored, bins: int = DEFAULT_BINS) -> dict[str, Any]:
 
 def precision_recall(scored: Scored) -> dict[str, Any]:
     """The precision-recall curve over thresholds (one point per distinct confidence) and the F1-optimal threshold."""
-    order = np.argsort(-scored.confidence, kind="stable")
-    confidence, correct = scored.confidence[order], scored.correct[order]
     points = []
-    tp = np.cumsum(correct)
-    for i in range(len(confidence)):
-        if i + 1 < len(confidence) and confidence[i + 1] == confidence[i]:
-            continue  # a threshold keeps every prediction at that confidence
-        kept = i + 1
-        precision = float(tp[i]) / kept
-        recall = float(tp[i]) / scored.gold if scored.gold else 0.0
-        f1 = 2 * float(tp[i]) / (kept + scored.gold) if kept + scored.gold else 0.0
-        points.append({"threshold": round(float(confidence[i]), DIGITS), "kept": kept, "correct": int(tp[i]),
+    for threshold, kept, right in zip(*threshold_sweep(scored.confidence, scored.correct)):
+        kept, right = int(kept), int(right)
+        precision = right / kept
+        recall = right / scored.gold if scored.gold else 0.0
+        f1 = 2 * right / (kept + scored.gold) if kept + scored.gold else 0.0
+        points.append({"threshold": round(float(threshold), DIGITS), "kept": kept, "correct": right,
                        "precision": round(precision, DIGITS), "recall": round(recall, DIGITS), "f1": round(f1, DIGITS)})
     best = max(points, key=lambda p: (p["f1"], p["threshold"]), default=None)
     return {"gold": scored.gold, "points": points, "best": best}

@@ -55,12 +55,14 @@ class Overrides:
 
     def evaluation(self) -> dict[str, Any]:
         """The ``[evaluation]`` keys this sets, by name."""
-        names = {f.name for f in fields(EvaluationConfig)}
-        return {key: value for key, value in self.__dict__.items() if key in names and value is not None}
+        return self._set_in(EvaluationConfig)
 
     def confidence(self) -> dict[str, Any]:
         """The ``[confidence]`` keys this sets, by name."""
-        names = {f.name for f in fields(ConfidenceConfig)}
+        return self._set_in(ConfidenceConfig)
+
+    def _set_in(self, section: type) -> dict[str, Any]:
+        names = {f.name for f in fields(section)}
         return {key: value for key, value in self.__dict__.items() if key in names and value is not None}
 
 

@@ -27,8 +27,6 @@ from dataclasses import dataclass, field
 from typing import Sequence
 
 import numpy as np
-from sklearn.isotonic import IsotonicRegression
-from sklearn.linear_model import LogisticRegression
 
 TRIGGER = "trigger"
 _EDGE = 1e-6  # keeps logits finite for confidences of exactly 0 or 1
@@ -45,18 +43,13 @@ class HeldOut:
     gold: int = 0
 
 
-def empty_points(roles: Sequence[str]) -> dict[str, HeldOut]:
-    """No held-out point yet for the trigger and each role."""
-    return {label: HeldOut() for label in (TRIGGER, *roles)}
-
-
 def held_out_points(gold_triggers: Sequence[Sequence[TokenRange]],
                     gold_roles: Sequence[Sequence[Sequence[tuple[int, int, str]]]],
                     predicted_triggers: Sequence[Sequence[tuple[int, int, float]]],
                     predicted_roles: Sequence[Sequence[Sequence[tuple[int, int, str, float]]]],
                     roles: Sequence[str]) -> dict[str, HeldOut]:
     """Per label, each predicted instance's confidence and correctness (exact token ranges) plus the gold count."""
-    points = empty_points(roles)
+    points = {label: HeldOut() for label in (TRIGGER, *roles)}
     for triggers, events, guesses, guessed_roles in zip(gold_triggers, gold_roles, predicted_triggers, predicted_roles):
         gold_by_trigger = {tuple(t): {(f, e, r) for f, e, r in event} for t, event in zip(triggers, events)}
         points[TRIGGER].gold += len(gold_by_trigger)
@@ -83,19 +76,25 @@ class Calibrator:
 
     def fit(self, confidence: Sequence[float], correct: Sequence[bool]) -> "Calibrator":
         x, y = np.asarray(confidence, dtype=float), np.asarray(correct, dtype=float)
+        if not len(y):
+            raise ValueError("a calibrator needs at least one held-out prediction")
         self.constant_ = None
         if len(set(y.tolist())) < 2:  # all right or all wrong: nothing to fit a curve to
-            self.constant_ = float(y.mean()) if len(y) else None
+            self.constant_ = float(y.mean())
         elif self.method == "isotonic":
+            from sklearn.isotonic import IsotonicRegression
+
             self.model_ = IsotonicRegression(y_min=0.0, y_max=1.0, out_of_bounds="clip").fit(x, y)
         else:
+            from sklearn.linear_model import LogisticRegression
+
             self.model_ = LogisticRegression(C=1e6).fit(_logit(x), y)
         return self
 
     def transform(self, confidence: Sequence[float]) -> np.ndarray:
         x = np.asarray(confidence, dtype=float)
-        if self.constant_ is not None or not hasattr(self, "model_"):
-            return x if self.constant_ is None else np.full(x.shape, self.constant_)
+        if self.constant_ is not None:
+            return np.full(x.shape, self.constant_)
         if self.method == "isotonic":
             return np.clip(self.model_.predict(x), 0.0, 1.0)
         return self.model_.predict_proba(_logit(x))[:, 1]
@@ -104,6 +103,17 @@ class Calibrator:
 def _logit(x: np.ndarray) -> np.ndarray:
     clipped = np.clip(x, _EDGE, 1 - _EDGE)
     return np.log(clipped / (1 - clipped)).reshape(-1, 1)
+
+
+def threshold_sweep(confidence: Sequence[float], correct: Sequence[bool]) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Every distinct confidence as a threshold, highest first, with how many predictions it keeps
+    (confidence at or above it) and how many of those are correct; one sort, so n log n."""
+    x, y = np.asarray(confidence, dtype=float), np.asarray(correct, dtype=bool)
+    order = np.argsort(-x, kind="stable")
+    x, right = x[order], np.cumsum(y[order])
+    # The last position of each distinct confidence: a threshold keeps every prediction at it.
+    last = np.flatnonzero(np.append(x[1:] != x[:-1], True)) if len(x) else np.array([], dtype=int)
+    return x[last], last + 1, right[last]
 
 
 def choose_threshold(confidence: Sequence[float], correct: Sequence[bool], gold: int, *, objective: str,
@@ -116,10 +126,7 @@ def choose_threshold(confidence: Sequence[float], correct: Sequence[bool], gold:
     """
     if objective == "none" or not len(confidence):
         return None
-    x, y = np.asarray(confidence, dtype=float), np.asarray(correct, dtype=bool)
-    thresholds = np.unique(x)[::-1]  # highest first
-    kept = np.array([(x >= t).sum() for t in thresholds])
-    right = np.array([(y & (x >= t)).sum() for t in thresholds])
+    thresholds, kept, right = threshold_sweep(confidence, correct)
     precision = right / kept
     if objective == "f1":
         f1 = 2 * right / (kept + gold)

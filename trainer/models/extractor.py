@@ -17,7 +17,7 @@ from trainer.corpus.auxiliary import TARGET_DOMAIN
 from trainer.corpus.records import Event, Record, RoleSpan
 from trainer.errors import ConfigError
 from trainer.features.extract import Featurizer
-from trainer.models.calibration import ConfidencePolicy, empty_points, held_out_points
+from trainer.models.calibration import ConfidencePolicy, held_out_points
 from trainer.models.kinds import MODEL_KINDS, RoleLabeller, TriggerFinder
 from trainer.models.search import f1_of_sets, inner_folds, search_stage
 from trainer.models.sequence import marginal_spans
@@ -182,7 +182,9 @@ class MotionExtractor:
         """
         settings = self.config.confidence
         plain = replace(self.config, confidence=ConfidenceConfig())
-        points = empty_points(self.config.roles)
+        held: list[int] = []  # the held-out target records, in the order predicted
+        triggers: list = []
+        roles: list = []
         for train, test in inner_folds(records):
             test = [i for i in test if domains is None or domains[i] == TARGET_DOMAIN]
             if not test or not train:
@@ -190,13 +192,12 @@ class MotionExtractor:
             inner = MotionExtractor(plain, self.featurizer).fit(
                 [records[i] for i in train], [docs[i] for i in train],
                 domains=[domains[i] for i in train] if domains is not None else None)
-            triggers, roles = inner.raw_predictions([docs[i] for i in test])
-            found = held_out_points([targets.triggers[i] for i in test], [targets.roles[i] for i in test],
-                                    triggers, roles, self.config.roles)
-            for label, held in found.items():
-                points[label].confidence += held.confidence
-                points[label].correct += held.correct
-                points[label].gold += held.gold
+            fold_triggers, fold_roles = inner.raw_predictions([docs[i] for i in test])
+            held += test
+            triggers += fold_triggers
+            roles += fold_roles
+        points = held_out_points([targets.triggers[i] for i in held], [targets.roles[i] for i in held],
+                                 triggers, roles, self.config.roles)
         self.confidence_ = ConfidencePolicy.learn(points, calibration=settings.calibration,
                                                   objective=settings.thresholds,
                                                   target_precision=settings.target_precision)
