@@ -109,13 +109,33 @@ def test_refusals() -> None:
 
 
 def test_holm_worked_example_four_hypotheses() -> None:
-    # The four-hypothesis example of the Wikipedia article "Holm–Bonferroni method" (values from memory):
-    # p = 0.01, 0.04, 0.03, 0.005 at alpha 0.05; sorted 0.005 < 0.05/4, 0.01 < 0.05/3, 0.03 > 0.05/2, so
-    # H4 and H1 are rejected and H2, H3 are not. Adjusted by Holm's (1979) rule, min(1, max_j<=i (m-j+1) p_(j)):
+    # Web example (not a handbook): GeeksforGeeks, "Holm-Bonferroni method",
+    # https://www.geeksforgeeks.org/data-science/holm-bonferroni-method/ (read through a stored copy), lists
+    # H1..H4 = 0.01, 0.04, 0.03, 0.005 at alpha 0.05 and rejects H4 and H1 only; a stored copy of an older text of
+    # the Wikipedia article "Holm–Bonferroni method" gives the same four values (as 0.01, 0.03, 0.04, 0.005) and the
+    # same decisions. Sorted: 0.005 < 0.05/4, 0.01 < 0.05/3, 0.03 > 0.05/2. The adjusted values are derived here by
+    # Holm's (1979) rule, min(1, max_j<=i (m-j+1) p_(j)), not read in either text:
     # 4 x 0.005 = 0.02, 3 x 0.01 = 0.03, max(0.03, 2 x 0.03) = 0.06, max(0.06, 1 x 0.04) = 0.06.
     adjusted = holm([0.01, 0.04, 0.03, 0.005])
     assert adjusted == pytest.approx([0.03, 0.06, 0.06, 0.02])
     assert [p <= 0.05 for p in adjusted] == [True, False, False, True]
+
+
+def test_holm_matches_navarro_textbook_table_five_p_values() -> None:
+    # Published worked example: D. Navarro, "Learning statistics with R: A tutorial for psychology students and
+    # other beginners", version 0.6 (CC BY-SA), section 14.5.4 "Holm corrections", the table of "the calculations
+    # of a Holm correction for a collection of five p-values" (columns raw p, rank j, p x j, Holm p).
+    # Online: https://learningstatisticswithr.com/book/anova.html#holm-corrections . Read in the book's source,
+    # https://github.com/djnavarro/rbook (commit 6e42f1d040c757e3d1e51ad357af8a7a1cd555d1),
+    # original/tex/chapter14_anova.tex lines 726-735 and, identically, bookdown/05.14-anova.Rmd (version 0.6.1).
+    # raw p .001 .005 .019 .022 .103 -> p x j .005 .020 .057 .044 .103 -> Holm p .005 .020 .057 .057 .103
+    # (.022 x 2 = .044 is below the previous .057, so it takes .057: the step-down running maximum).
+    raw = [0.001, 0.005, 0.019, 0.022, 0.103]
+    published = [0.005, 0.020, 0.057, 0.057, 0.103]
+    assert holm(raw) == pytest.approx(published, abs=1e-12)
+    # Derived, not from the book: the same p-values in reverse input order give the same values, reversed.
+    assert holm(raw[::-1]) == pytest.approx(published[::-1], abs=1e-12)
+    assert [p <= 0.05 for p in holm(raw)] == [True, True, False, False, False]
 
 
 def test_holm_equals_statsmodels_multipletests() -> None:
