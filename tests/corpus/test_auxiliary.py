@@ -49,13 +49,14 @@ def test_two_sources_with_one_stem_get_distinct_names(tmp_path: Path) -> None:
     assert [c.name for c in corpora] == ["train", "train2"]
 
 
-def test_the_packaged_demo_corpus_is_the_demo_training_journals() -> None:
+def test_the_packaged_demo_corpus_is_the_demo_training_and_auxiliary_journals() -> None:
     packaged = read_corpus([packaged_corpus_path("demo")]).records
-    demo = read_corpus([ROOT / "demo_annotations" / "train"]).records
-    assert packaged == demo and len(packaged) == 656
-    # Used as auxiliary corpus of the demo itself, it adds nothing: every doc is the target's.
-    (corpus,) = read_auxiliary(["packaged:demo"], target=demo)
-    assert corpus.records == [] and corpus.left_out == 656
+    train = read_corpus([ROOT / "demo_annotations" / "train"]).records
+    auxiliary = read_corpus([ROOT / "demo_annotations" / "auxiliary"]).records
+    assert packaged == train + auxiliary and (len(train), len(auxiliary)) == (656, 792)
+    # Used as auxiliary corpus of the demo's training journals, only the auxiliary journals join.
+    (corpus,) = read_auxiliary(["packaged:demo"], target=train)
+    assert corpus.records == auxiliary and corpus.left_out == 656
 
 
 def test_an_unknown_packaged_corpus_is_refused() -> None:

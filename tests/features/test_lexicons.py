@@ -258,3 +258,50 @@ def test_most_single_word_verbs_have_a_verb_motion_sense(wordnet_verbs: dict[str
     share = len(motion) / len(single)
     print(f"\nWordNet 3.0 verb.motion share: {len(motion)}/{len(single)} = {share:.3f}")
     assert share >= MIN_VERB_MOTION_SHARE
+
+
+# ---------------------------------------------------------------- reading a token as a motion word
+
+# 'After riding twelve miles we hoped to go by sailing north.' with the parser's lemma errors kept:
+# the small English pipeline lemmatises 'riding' as 'rid' and tags a gerund after a preposition as a noun.
+RIDING = """
+After    after    ADP    IN   prep    1
+riding   rid      VERB   VBG  pcomp   0
+twelve   twelve   NUM    CD   nummod  3
+miles    mile     NOUN   NNS  dobj    1
+we       we       PRON   PRP  nsubj   5
+hoped    hope     VERB   VBD  ROOT    5
+to       to       PART   TO   aux     7
+go       go       VERB   VB   xcomp   5
+by       by       ADP    IN   prep    7
+sailing  sailing  NOUN   NN   pobj    8
+north    north    ADV    RB   advmod  9
+.        .        PUNCT  .    punct   5
+"""
+# 'The sailing ship came in.' with 'came' left unlemmatised and tagged as an auxiliary.
+SAILING_SHIP = """
+The      the      DET    DT   det       2
+sailing  sailing  NOUN   NN   compound  2
+ship     ship     NOUN   NN   nsubj     3
+came     came     AUX    VBD  ROOT      3
+in       in       ADP    RP   prt       3
+.        .        PUNCT  .    punct     3
+"""
+
+
+def test_motion_reading_mends_the_parsers_lemma_errors_from_the_word_as_written() -> None:
+    from tests.hand_parsed import make_doc
+
+    from trainer.features.lexicons import motion_reading
+
+    lexicons = load_lexicons()
+    doc = make_doc(RIDING)
+    readings = {token.text: motion_reading(token, lexicons) for token in doc}
+    assert readings["riding"] == ("ride", lexicons.verb_class("ride"))  # lemma 'rid' mended by WordNet's 'ride'
+    assert readings["hoped"] is None  # 'hope', not the motion verb 'hop'
+    assert readings["go"] == ("go", lexicons.verb_class("go"))
+    assert readings["sailing"] == ("sail", lexicons.verb_class("sail"))  # a gerund tagged as a noun
+    assert readings["miles"] is None and readings["north"] is None
+    ship = make_doc(SAILING_SHIP)
+    assert motion_reading(ship[1], lexicons) is None  # a noun modifier, not a gerund
+    assert motion_reading(ship[3], lexicons) == ("come in", lexicons.verb_class("come in"))

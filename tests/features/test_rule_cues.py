@@ -117,3 +117,112 @@ def test_the_rules_group_reaches_both_stages_through_the_featurizer() -> None:
     assert roles[3]["rule_role"] == "I-destination" and roles[3]["rule_cue"] == "object:arrival"
     without = Featurizer(FeatureConfig(groups=["context"], window=1), LEXICONS).role_features(doc, (1, 2))
     assert not any(key.startswith("rule_") or ":rule_" in key for row in without for key in row)
+
+
+def test_rule_triggers_read_words_the_parser_lemmatised_wrongly() -> None:
+    from tests.features.test_lexicons import RIDING, SAILING_SHIP
+
+    # 'riding' (lemma 'rid') and the gerund 'sailing' are read through WordNet's base forms; 'go' under
+    # 'hoped' is blocked; 'came in' (an auxiliary left as 'came') keeps its glued particle in the span.
+    assert rule_triggers(make_doc(RIDING), LEXICONS) == [
+        RuleTrigger(1, 2, LEXICONS.verb_class("ride"), ""), RuleTrigger(7, 8, LEXICONS.verb_class("go"), "not_yet"),
+        RuleTrigger(9, 10, LEXICONS.verb_class("sail"), ""),
+    ]
+    assert rule_triggers(make_doc(SAILING_SHIP), LEXICONS) == [RuleTrigger(3, 5, "arrival", "")]
+
+
+# 'After wandering along, we reached the wells.'
+WANDERING = """
+After      after    ADP    IN   prep    5
+wandering  wander   VERB   VBG  pcomp   0
+along      along    ADV    RB   advmod  1
+,          ,        PUNCT  ,    punct   5
+we         we       PRON   PRP  nsubj   5
+reached    reach    VERB   VBD  ROOT    5
+the        the      DET    DT   det     7
+wells      well     NOUN   NNS  dobj    5
+.          .        PUNCT  .    punct   5
+"""
+# 'We saw sails gliding into the bay.'
+GLIDING = """
+We       we      PRON   PRP  nsubj  1
+saw      see     VERB   VBD  ROOT   1
+sails    sail    NOUN   NNS  dobj   1
+gliding  glide   VERB   VBG  acl    2
+into     into    ADP    IN   prep   3
+the      the     DET    DT   det    6
+bay      bay     NOUN   NN   pobj   4
+.        .       PUNCT  .    punct  1
+"""
+
+
+def test_participles_take_the_mover_of_the_clause_that_controls_them() -> None:
+    # Subject control of adjunct participles and gerunds (common practice in syntax: the understood subject of
+    # 'after wandering along' is the main clause's subject), and a participle modifying a noun moves that noun.
+    doc = make_doc(WANDERING)
+    assert rule_roles(doc, (1, 2), LEXICONS) == [RuleRole(4, 5, "mover", "controller")]
+    assert rule_roles(doc, (5, 6), LEXICONS) == [
+        RuleRole(4, 5, "mover", "subject"), RuleRole(6, 8, "destination", "object:arrival")]
+    assert rule_roles(make_doc(GLIDING), (3, 4), LEXICONS) == [
+        RuleRole(2, 3, "mover", "modified_noun"), RuleRole(5, 7, "destination", "prep:into")]
+
+
+# 'We passed Arlo and Brenn.'
+PASSED_TWO = """
+We      we      PRON   PRP  nsubj  1
+passed  pass    VERB   VBD  ROOT   1
+Arlo    Arlo    PROPN  NNP  dobj   1
+and     and     CCONJ  CC   cc     2
+Brenn   Brenn   PROPN  NNP  conj   2
+.       .       PUNCT  .    punct  1
+"""
+
+
+def test_coordinated_places_are_roles_of_their_own() -> None:
+    # The annotation spec's own example: 'through Arlo and Brenn' has two path spans.
+    assert rule_roles(make_doc(PASSED_TWO), (1, 2), LEXICONS) == [
+        RuleRole(0, 1, "mover", "subject"), RuleRole(2, 3, "path", "object:traversal"),
+        RuleRole(4, 5, "path", "object:traversal")]
+
+
+def test_plans_purposes_and_to_morrow_block_a_motion_verb() -> None:
+    from trainer.features.rule_cues import blocking_cue
+
+    # 'He was directed to proceed to the coast.' (an order not yet carried out, per the annotation spec)
+    directed = make_doc("""
+He        he        PRON   PRP  nsubjpass  2
+was       be        AUX    VBD  auxpass    2
+directed  direct    VERB   VBN  ROOT       2
+to        to        PART   TO   aux        4
+proceed   proceed   VERB   VB   xcomp      2
+.         .         PUNCT  .    punct      2
+""")
+    # 'I start to-morrow for Oban.' as the small English pipeline parses it: 'to' + '-' + 'morrow'.
+    to_morrow = make_doc("""
+I       I       PRON   PRP  nsubj  1
+start   start   VERB   VBP  ROOT   1
+to      to      ADP    IN   prep   1
+-       -       PUNCT  HYPH punct  2
+morrow  morrow  NOUN   NN   pobj   2
+for     for     ADP    IN   prep   1
+Oban    Oban    PROPN  NNP  pobj   5
+.       .       PUNCT  .    punct  1
+""")
+    # 'We halted there to rest the mules before we rode on.' (an infinitive of purpose; 'rode' is narrated)
+    purpose = make_doc("""
+We      we      PRON   PRP  nsubj  1
+halted  halt    VERB   VBD  ROOT   1
+there   there   ADV    RB   advmod 1
+to      to      PART   TO   aux    4
+rest    rest    VERB   VB   advcl  1
+the     the     DET    DT   det    6
+mules   mule    NOUN   NNS  dobj   4
+before  before  SCONJ  IN   mark   9
+we      we      PRON   PRP  nsubj  9
+rode    ride    VERB   VBD  advcl  1
+on      on      ADP    RP   prt    9
+.       .       PUNCT  .    punct  1
+""")
+    assert blocking_cue(directed[4]) == "not_yet"
+    assert blocking_cue(to_morrow[1]) == "future"
+    assert (blocking_cue(purpose[4]), blocking_cue(purpose[9])) == ("purpose", "")

@@ -9,23 +9,47 @@ import pytest
 
 from tests.hand_parsed import REACHED_TARN, make_doc
 
-from trainer.features.wordnet import LEXNAMES, build_classes, packaged_classes, wordnet_features
+from trainer.features.wordnet import (
+    LEXNAMES, build_classes, build_verb_exceptions, packaged_classes, packaged_verb_exceptions, verb_base,
+    wordnet_features,
+)
 
 # Source: Princeton WordNet 3.0 as shipped by Debian's ``wordnet-base``, read from its
 # database files; lexicographer file numbers per the lexnames(5WN) manual page.
 WORDNET_DIR = Path("/usr/share/wordnet")
 
 
-def test_the_packaged_file_is_exactly_what_wordnet_3_gives() -> None:
+def _need_wordnet() -> None:
     if not (WORDNET_DIR / "index.verb").is_file():
         reason = f"WordNet 3.0 not found in {WORDNET_DIR} (install the Debian package wordnet-base)"
         if "CI" in os.environ:
             pytest.fail(reason)
         pytest.skip(reason)
+
+
+@pytest.mark.parametrize(("packaged_name", "build"), [
+    ("wordnet_classes.tsv", build_classes), ("wordnet_verb_exceptions.tsv", build_verb_exceptions),
+])
+def test_the_packaged_files_are_exactly_what_wordnet_3_gives(packaged_name, build) -> None:
+    _need_wordnet()
     from importlib import resources
 
-    packaged = resources.files("trainer.features").joinpath("lexicons", "wordnet_classes.tsv").read_text("utf-8")
-    assert build_classes(WORDNET_DIR) == packaged
+    packaged = resources.files("trainer.features").joinpath("lexicons", packaged_name).read_text("utf-8")
+    assert build(WORDNET_DIR) == packaged
+
+
+def test_verb_base_follows_wordnets_morphy_and_prefers_a_restored_e() -> None:
+    # Irregular forms as WordNet 3.0's verb.exc lists them (read from Debian's copy): came -> come, rode -> ride,
+    # stopped -> stop (a doubled consonant), lay -> lie.
+    exceptions = packaged_verb_exceptions()
+    assert (exceptions["came"], exceptions["rode"], exceptions["stopped"], exceptions["lay"]) == (
+        ("come",), ("ride",), ("stop",), ("lie",))
+    assert [verb_base(form) for form in ("came", "stopped", "rowed", "visited", "galloped")] == [
+        "come", "stop", "row", "visit", "gallop"]
+    # Both 'ride' and 'rid', 'hope' and 'hop' are WordNet verbs: English spelling would double the consonant of
+    # the short-vowel verb ('ridding', 'hopped'), so the e-restoring rule, first in morphy's order, is right.
+    assert [verb_base(form) for form in ("riding", "hoped", "sailing", "gliding")] == ["ride", "hope", "sail", "glide"]
+    assert verb_base("cross") == "cross" and verb_base("qwxz") is None
 
 
 def test_lexicographer_numbers_of_the_classes_the_features_lean_on() -> None:

@@ -73,7 +73,7 @@ def test_auxiliary_corpora_join_training_with_their_own_domain_and_predictions_u
     trained = fit_extractor(demo["train"], config, nlp=nlp, docs=demo["train_docs"])
     (aux,) = trained.auxiliary
     assert aux["name"] == "demo" and aux["left_out_shared_with_target"] == len(demo["train"])
-    assert aux["records"] == 656 - len(demo["train"])
+    assert aux["records"] == 1448 - len(demo["train"])
     extractor: MotionExtractor = trained.extractor
     assert extractor.domains_ == ["demo", "target"]
     features = extractor.prediction_features(demo["test_docs"][:1])

@@ -15,7 +15,7 @@ import functools
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Sequence
 
-from trainer.features.lexicons import Lexicons
+from trainer.features.lexicons import Lexicons, motion_reading
 
 if TYPE_CHECKING:
     from spacy.tokens import Doc, Token
@@ -171,17 +171,10 @@ def lexicon(token: Token, lexicons: Lexicons, gazetteer_tag: str = "O", gov: str
     prepositional phrase gets the role its governing preposition cues
     (``gov_prep_cue``; pass ``gov`` when already computed).
     """
-    lemma = token.lemma_.lower()
     features: Features = {"gazetteer": gazetteer_tag, "direction": token.lower_ in lexicons.directions}
-    if token.pos_ in {"VERB", "AUX"}:
-        features["verb_class"] = lexicons.verb_class(lemma) or "-"
-        particles = [c.lower_ for c in token.children if c.dep_ == "prt"]
-        if particles:
-            phrasal = lexicons.verb_class(f"{lemma} {particles[0]}")
-            if phrasal:
-                features["verb_class"] = phrasal
-    elif token.pos_ == "NOUN":
-        features["noun_class"] = lexicons.noun_class(lemma) or "-"
+    if token.pos_ in {"VERB", "AUX", "NOUN"}:
+        reading = motion_reading(token, lexicons)
+        features["noun_class" if token.pos_ == "NOUN" else "verb_class"] = reading[1] if reading else "-"
     elif token.pos_ in {"ADP", "ADV", "SCONJ", "PART"}:
         cue = preposition_cue(token.doc, token.i, lexicons)
         if cue:
@@ -278,9 +271,10 @@ def _trigger(doc: Doc, trigger: tuple[int, int], lexicons: Lexicons) -> _Trigger
     first, end = trigger
     head = doc[first:end].root
     lemma = head.lemma_.lower()
-    verb_class = lexicons.verb_class(lemma)
-    return _Trigger(first, end, head, _chain(head), lemma,
-                    verb_class or lexicons.noun_class(lemma) or "-", verb_class or "-")
+    reading = motion_reading(head, lexicons)
+    verb_class = reading[1] if reading and head.pos_ in {"VERB", "AUX"} else lexicons.verb_class(lemma)
+    trigger_class = verb_class or (reading[1] if reading else lexicons.noun_class(lemma))
+    return _Trigger(first, end, head, _chain(head), lemma, trigger_class or "-", verb_class or "-")
 
 
 def _relative(token: Token, trigger: _Trigger) -> Features:

@@ -26,9 +26,13 @@ import functools
 from dataclasses import dataclass
 from importlib import resources
 from pathlib import Path
-from typing import Mapping
+from typing import TYPE_CHECKING, Mapping
 
 from trainer.errors import ConfigError
+from trainer.features.wordnet import verb_base
+
+if TYPE_CHECKING:
+    from spacy.tokens import Token
 
 MOTION_CLASSES: tuple[str, ...] = (
     "departure",
@@ -109,6 +113,39 @@ class Lexicons:
     def preposition_words(self) -> frozenset[str]:
         """Every word that occurs in a listed preposition: a quick test before trying phrases."""
         return frozenset(word for phrase in self.prepositions for word in phrase.split())
+
+
+_VERB_POS = frozenset({"VERB", "AUX"})
+
+
+def motion_reading(token: Token, lexicons: Lexicons) -> tuple[str, str] | None:
+    """The lexicon entry a token is read as and its class (``("set out", "departure")``), or None.
+
+    A verb (or an auxiliary) is looked up with its glued particle first, then
+    alone, by the parser's lemma and then by WordNet's base form of the word as
+    written (:func:`~trainer.features.wordnet.verb_base`), which mends the
+    parser's lemma errors: ``riding`` lemmatised as ``rid``, ``came`` left as
+    ``came``. A noun is looked up by its lemma; an ``-ing`` noun that is not
+    listed and does not modify another noun is read as its verb's gerund
+    (``by dint of sailing north``).
+    """
+    lemma = token.lemma_.lower()
+    if token.pos_ == "NOUN":
+        found = lexicons.noun_class(lemma)
+        if found:
+            return lemma, found
+        if not token.lower_.endswith("ing") or token.dep_ in {"compound", "amod"}:
+            return None
+    elif token.pos_ not in _VERB_POS:
+        return None
+    readings = [lemma, *([base] if (base := verb_base(token.lower_)) and base != lemma else [])]
+    particle = next((c.lower_ for c in token.children if c.dep_ == "prt"), None)
+    entries = [f"{reading} {particle}" for reading in readings] if particle else []
+    for entry in [*entries, *readings]:
+        found = lexicons.verb_class(entry)
+        if found:
+            return entry, found
+    return None
 
 
 def _parse(text: str, *, source: str, kind: str) -> _Entries:

@@ -8,12 +8,13 @@ features (stacking), so a trained model starts from the rules' answers and
 learns where they go wrong.
 
 Triggers are verbs (and nouns) whose lemma is in the motion lexicons, unless
-negated or under a modal or a verb of wanting or planning. Roles come from
-dependency patterns: the subject is the mover (shared by coordinated verbs),
-a prepositional object takes the role its preposition cues, and a direct
+negated, under a modal or a verb of wanting or planning, an infinitive of
+purpose, or dated to-morrow. Roles come from
+dependency patterns: the subject is the mover (shared by coordinated verbs,
+and by the participles and infinitives it controls), a prepositional object takes the role its preposition cues, and a direct
 object takes the role the verb's class implies (``left X`` source,
 ``reached X`` destination, ``crossed X`` path). Each decision carries the cue
-that made it (``subject``, ``object:departure``, ``prep:from``, ...).
+that made it (``subject``, ``controller``, ``object:departure``, ``prep:from``, ...).
 """
 
 from __future__ import annotations
@@ -24,15 +25,27 @@ from weakref import WeakKeyDictionary
 from spacy.tokens import Doc, Token
 
 from trainer.features.groups import governing_preposition
-from trainer.features.lexicons import Lexicons
+from trainer.features.lexicons import Lexicons, motion_reading
 
 HYPOTHETICAL_AUX = {"would", "could", "should", "might", "may", "shall", "will", "must", "ought", "can"}
-NOT_YET_HEADS = {"hope", "want", "wish", "mean", "intend", "plan", "try", "attempt", "order", "bid", "propose", "expect", "fail", "refuse"}
+# Verbs of wanting, planning, deciding, asking and ordering: a motion verb under them is not yet carried out
+# (`we hoped to cross`, `he was directed to proceed`); aspect and necessity (`began to`, `were obliged to`) are not here.
+NOT_YET_HEADS = {
+    "hope", "want", "wish", "desire", "long", "mean", "intend", "plan", "purpose", "design", "propose", "expect",
+    "try", "attempt", "endeavour", "endeavor", "seek", "fail", "refuse", "decline", "hesitate", "resolve",
+    "determine", "decide", "prepare", "promise", "agree", "offer", "consent", "order", "bid", "direct", "instruct",
+    "command", "ask", "beg", "invite", "persuade", "urge", "advise", "tell", "allow", "permit",
+}
+# Words that put a present-tense verb in the future (`I start to-morrow for Oban`).
+FUTURE_WORDS = {"to-morrow", "tomorrow", "morrow"}
 OBJECT_ROLE_BY_CLASS = {
     "departure": "source", "arrival": "destination", "traversal": "path",
     "ascent_descent": "path", "return": "destination",
 }
 SUBJECT_DEPS = {"nsubj", "nsubjpass"}
+# A verb in one of these relations has its subject from the verb it hangs from (subject control).
+_CONTROLLED_DEPS = {"advcl", "xcomp", "pcomp"}
+_MAX_CONTROL_STEPS = 3
 _CUT_DEPS = {"relcl", "appos", "punct", "acl", "advcl", "cc", "conj", "prep", "mark", "dep"}
 
 
@@ -41,7 +54,7 @@ class RuleTrigger:
     """A token the motion lexicons name, with the rules' verdict on it.
 
     ``blocked`` is ``""`` for a trigger the rules keep, else the cue that
-    dropped it: ``negated``, ``modal`` or ``not_yet`` (under ``hope``, ``mean``, ...).
+    dropped it (:func:`blocking_cue`).
     """
 
     first: int
@@ -83,7 +96,13 @@ def phrase_span(token: Token) -> tuple[int, int]:
 
 
 def blocking_cue(verb: Token) -> str:
-    """Why the rules drop a motion verb: ``negated``, ``modal``, ``not_yet``, or ``""`` when they keep it."""
+    """Why the rules drop a motion verb, or ``""`` when they keep it.
+
+    ``negated``; ``modal`` (`would`, `must`, ...); ``not_yet``, under a verb of
+    wanting, planning or ordering (:data:`NOT_YET_HEADS`); ``purpose``, an
+    infinitive of purpose (`rose to go`, `the wish to visit`); ``future``, a
+    verb dated to-morrow.
+    """
     children = list(verb.children)
     if any(c.dep_ == "neg" for c in children):
         return "negated"
@@ -91,43 +110,62 @@ def blocking_cue(verb: Token) -> str:
         return "modal"
     if verb.dep_ == "xcomp" and verb.head.lemma_.lower() in NOT_YET_HEADS:
         return "not_yet"
+    if verb.dep_ in {"advcl", "acl"} and any(c.dep_ == "aux" and c.lower_ == "to" for c in children):
+        return "purpose"
+    # 'to-morrow' is parsed as 'to' + '-' + 'morrow', a prepositional phrase of the verb
+    if any(word.lower_ in FUTURE_WORDS for c in children for word in (c, *c.children)):
+        return "future"
     return ""
-
-
-def motion_class(token: Token, lexicons: Lexicons) -> str | None:
-    """The lexicon class of a verb (a phrasal one first) or a noun; None for other words."""
-    lemma = token.lemma_.lower()
-    if token.pos_ == "VERB":
-        particles = [c.lower_ for c in token.children if c.dep_ == "prt"]
-        if particles and lexicons.verb_class(f"{lemma} {particles[0]}"):
-            return lexicons.verb_class(f"{lemma} {particles[0]}")
-        return lexicons.verb_class(lemma)
-    if token.pos_ == "NOUN":
-        return lexicons.noun_class(lemma)
-    return None
 
 
 def rule_triggers(doc: Doc, lexicons: Lexicons) -> list[RuleTrigger]:
     """Every lexicon trigger of a sentence, kept or blocked, with a glued particle in its range."""
     found = []
     for token in doc:
-        found_class = motion_class(token, lexicons)
-        if not found_class:
+        reading = motion_reading(token, lexicons)
+        if not reading:
             continue
+        entry, found_class = reading
         end = token.i + 1
-        particle = next((c for c in token.rights if c.dep_ == "prt" and c.i == token.i + 1), None)
-        if particle is not None and lexicons.verb_class(f"{token.lemma_.lower()} {particle.lower_}"):
+        after = doc[end] if end < len(doc) else None
+        if after is not None and after.dep_ == "prt" and after.head.i == token.i and entry.endswith(f" {after.lower_}"):
             end += 1
-        blocked = blocking_cue(token) if token.pos_ == "VERB" else ""
+        blocked = blocking_cue(token) if token.pos_ in {"VERB", "AUX"} else ""
         found.append(RuleTrigger(token.i, end, found_class, blocked))
     return found
 
 
-def _subject(verb: Token) -> Token | None:
+def _subject(verb: Token, steps: int = 0) -> tuple[Token, str] | None:
+    """The mover the rules give a verb and its cue: its own subject, else the subject it shares or is controlled by.
+
+    A verb without a subject takes that of the verb it is coordinated with
+    (``subject``); a participle, gerund or infinitive hanging from a clause
+    (``advcl``, ``xcomp``, or the object of ``after``, ``on``, ``by dint of``)
+    takes the subject of the verb it hangs from (``controller``: ``after
+    wandering along, we reached`` -> ``we``); a participle modifying a noun
+    takes that noun (``modified_noun``: ``sails gliding in``).
+    """
     subject = next((c for c in verb.children if c.dep_ in SUBJECT_DEPS), None)
-    if subject is None and verb.dep_ == "conj":
-        return _subject(verb.head)
-    return subject
+    if subject is not None:
+        return subject, "subject" if steps == 0 else "controller"
+    if steps >= _MAX_CONTROL_STEPS or verb.head.i == verb.i:
+        return None
+    if verb.dep_ == "conj":
+        return _subject(verb.head, steps)
+    if verb.dep_ == "acl" and verb.tag_ in {"VBG", "VBN"} and verb.head.pos_ in {"NOUN", "PROPN", "PRON"}:
+        return verb.head, "modified_noun"
+    if verb.dep_ in _CONTROLLED_DEPS:
+        governor = verb.head
+        while governor.pos_ in {"ADP", "SCONJ"} and governor.dep_ in {"prep", "pcomp", "mark"} and governor.head.i != governor.i:
+            governor = governor.head
+        if governor.pos_ in {"VERB", "AUX"}:
+            return _subject(governor, steps + 1)
+    return None
+
+
+def _coordinated(token: Token) -> list[Token]:
+    """A noun and the nouns coordinated with it: each place of ``through Arlo and Brenn`` is a role of its own."""
+    return [token, *(c for c in token.conjuncts if c.pos_ in {"NOUN", "PROPN"})]
 
 
 def _prepositional_objects(head: Token, max_steps: int = 3) -> list[Token]:
@@ -175,16 +213,19 @@ def _find_roles(doc: Doc, trigger: tuple[int, int], lexicons: Lexicons) -> list[
         if owner is not None:
             found.add(RuleRole(*phrase_span(owner), "mover", "possessor"))
     else:
-        subject = _subject(head)
-        if subject is not None:
-            found.add(RuleRole(*phrase_span(subject), "mover", "subject"))
-    verb_class = motion_class(head, lexicons)
+        mover = _subject(head)
+        if mover is not None:
+            found.add(RuleRole(*phrase_span(mover[0]), "mover", mover[1]))
+    reading = motion_reading(head, lexicons)
+    verb_class = reading[1] if reading else None
     for child in head.children:
         if child.dep_ == "dobj" and verb_class in OBJECT_ROLE_BY_CLASS:
-            found.add(RuleRole(*phrase_span(child), OBJECT_ROLE_BY_CLASS[verb_class], f"object:{verb_class}"))
+            for place in _coordinated(child):
+                found.add(RuleRole(*phrase_span(place), OBJECT_ROLE_BY_CLASS[verb_class], f"object:{verb_class}"))
     for token in _prepositional_objects(head):
         preposition = governing_preposition(token)
         role = lexicons.preposition_role(preposition)
         if role:
-            found.add(RuleRole(*phrase_span(token), role, f"prep:{preposition}"))
+            for place in _coordinated(token):
+                found.add(RuleRole(*phrase_span(place), role, f"prep:{preposition}"))
     return sorted(found, key=lambda r: (r.first, r.end, r.role, r.cue))

@@ -36,12 +36,22 @@ LEXNAMES: dict[int, str] = {
 SENSES_KEPT = 3
 PACKAGED_FILE = "wordnet_classes.tsv"
 HEADER = "lemma\tpos\tclasses"
+EXCEPTIONS_FILE = "wordnet_verb_exceptions.tsv"
+EXCEPTIONS_HEADER = "form\tbases"
+# WordNet's detachment rules for verbs (morphy(7WN)): an inflected ending and what replaces it.
+VERB_ENDINGS: tuple[tuple[str, str], ...] = (
+    ("s", ""), ("ies", "y"), ("es", "e"), ("es", ""), ("ed", "e"), ("ed", ""), ("ing", "e"), ("ing", ""),
+)
 NOTICE = (
     "# Derived from Princeton WordNet 3.0 (index.noun/verb and data.noun/verb): for each single-word lemma,\n"
     "# the distinct lexicographer classes of its first three senses, most frequent sense first.\n"
     "# WordNet 3.0 Copyright 2006 by Princeton University. All rights reserved. Permission to use, copy,\n"
     "# modify and distribute WordNet for any purpose and without fee or royalty is granted, provided that\n"
     "# this notice is kept. WordNet is provided 'as is', without warranties (see WordNet's LICENSE).\n"
+)
+EXCEPTIONS_NOTICE = (
+    "# Copied from Princeton WordNet 3.0's verb.exc: each irregular verb form and its base forms.\n"
+    + NOTICE.split("\n", 2)[2]
 )
 WordNetClasses = dict[tuple[str, str], tuple[str, ...]]
 
@@ -77,6 +87,49 @@ def build_classes(wordnet_dir: Path) -> str:
                         classes.append(name)
                 lines.append(f"{lemma}\t{short}\t{','.join(classes)}")
     return "\n".join(lines) + "\n"
+
+
+def build_verb_exceptions(wordnet_dir: Path) -> str:
+    """The text of the packaged verb-exceptions file, built from WordNet 3.0's ``verb.exc``."""
+    lines = [EXCEPTIONS_NOTICE.rstrip("\n"), EXCEPTIONS_HEADER]
+    with open(wordnet_dir / "verb.exc", encoding="utf-8") as handle:
+        for line in handle:
+            form, *bases = line.split()
+            lines.append(f"{form}\t{','.join(bases)}")
+    return "\n".join(lines) + "\n"
+
+
+@functools.lru_cache(maxsize=1)
+def packaged_verb_exceptions() -> dict[str, tuple[str, ...]]:
+    """The packaged irregular verb forms, ``form -> base forms``, read once per process."""
+    text = resources.files("trainer.features").joinpath("lexicons", EXCEPTIONS_FILE).read_text(encoding="utf-8")
+    out: dict[str, tuple[str, ...]] = {}
+    for line in text.splitlines():
+        if line.startswith("#") or line == EXCEPTIONS_HEADER or not line:
+            continue
+        form, bases = line.split("\t")
+        out[form] = tuple(bases.split(","))
+    return out
+
+
+@functools.lru_cache(maxsize=4096)
+def verb_base(form: str) -> str | None:
+    """The WordNet verb a lowercase verb form most likely comes from, after WordNet's morphy; None if none.
+
+    An irregular form's first base in ``verb.exc`` wins; then the form itself
+    if WordNet lists it as a verb; then the first detachment rule, in morphy's
+    order, that leaves a WordNet verb. Restoring an ``e`` comes before a bare
+    cut, which is what English spelling implies (a short vowel would double
+    the consonant): ``riding`` is ``ride``, not ``rid``; ``hoped`` is ``hope``,
+    not ``hop``.
+    """
+    irregular = packaged_verb_exceptions().get(form)
+    if irregular:
+        return irregular[0]
+    verbs = packaged_classes()
+    candidates = [form] + [form[: -len(ending)] + base for ending, base in VERB_ENDINGS
+                           if form.endswith(ending) and len(form) > len(ending) + 1]
+    return next((candidate for candidate in candidates if (candidate, "v") in verbs), None)
 
 
 @functools.lru_cache(maxsize=1)
