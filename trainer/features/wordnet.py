@@ -15,7 +15,7 @@ from __future__ import annotations
 import functools
 from importlib import resources
 from pathlib import Path
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Iterator
 
 if TYPE_CHECKING:
     from spacy.tokens import Token
@@ -99,17 +99,18 @@ def build_verb_exceptions(wordnet_dir: Path) -> str:
     return "\n".join(lines) + "\n"
 
 
+def _packaged_rows(filename: str, header: str) -> Iterator[list[str]]:
+    """The tab-separated fields of each data line of a packaged WordNet-derived file (no notice, header or blanks)."""
+    text = resources.files("trainer.features").joinpath("lexicons", filename).read_text(encoding="utf-8")
+    for line in text.splitlines():
+        if line and not line.startswith("#") and line != header:
+            yield line.split("\t")
+
+
 @functools.lru_cache(maxsize=1)
 def packaged_verb_exceptions() -> dict[str, tuple[str, ...]]:
     """The packaged irregular verb forms, ``form -> base forms``, read once per process."""
-    text = resources.files("trainer.features").joinpath("lexicons", EXCEPTIONS_FILE).read_text(encoding="utf-8")
-    out: dict[str, tuple[str, ...]] = {}
-    for line in text.splitlines():
-        if line.startswith("#") or line == EXCEPTIONS_HEADER or not line:
-            continue
-        form, bases = line.split("\t")
-        out[form] = tuple(bases.split(","))
-    return out
+    return {form: tuple(bases.split(",")) for form, bases in _packaged_rows(EXCEPTIONS_FILE, EXCEPTIONS_HEADER)}
 
 
 @functools.lru_cache(maxsize=4096)
@@ -135,14 +136,7 @@ def verb_base(form: str) -> str | None:
 @functools.lru_cache(maxsize=1)
 def packaged_classes() -> WordNetClasses:
     """The packaged lemma classes, ``(lemma, "n" | "v") -> classes``, read once per process."""
-    text = resources.files("trainer.features").joinpath("lexicons", PACKAGED_FILE).read_text(encoding="utf-8")
-    out: WordNetClasses = {}
-    for line in text.splitlines():
-        if line.startswith("#") or line == HEADER or not line:
-            continue
-        lemma, pos, classes = line.split("\t")
-        out[(lemma, pos)] = tuple(classes.split(","))
-    return out
+    return {(lemma, pos): tuple(classes.split(",")) for lemma, pos, classes in _packaged_rows(PACKAGED_FILE, HEADER)}
 
 
 _POS = {"VERB": "v", "NOUN": "n"}
