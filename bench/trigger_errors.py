@@ -23,6 +23,7 @@ from pathlib import Path
 from real_prose import ROOT, real_prose_records
 
 from trainer.config import load_config
+from trainer.errors import ItinerantError
 from trainer.evaluation.folds import leave_one_book_out
 from trainer.models.extractor import gold_targets
 from trainer.models.training import fit_extractor, parser_for
@@ -50,9 +51,14 @@ def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.split("\n")[0])
     parser.add_argument("--config", type=Path, default=ROOT / "configs" / "default.toml")
     args = parser.parse_args()
-    config = load_config(args.config)
-    if "rules" not in config.features.groups or config.trigger_model.kind == "rules":
-        parser.error("the config needs a learned trigger stage and the rules feature group")
+    try:
+        config = load_config(args.config)
+    except ItinerantError as exc:
+        parser.error(str(exc))
+    learned = config.trigger_model.kind != "rules" and config.trigger_model.tune_threshold
+    if "rules" not in config.features.groups or not learned:
+        parser.error(f"{args.config}: needs the rules feature group and a learned trigger stage with a tuned "
+                     "threshold ([trigger_model] tune_threshold = true), as in configs/default.toml")
     records = real_prose_records()
     nlp = parser_for(config)
     docs, _ = parse_records(nlp, records, config.parser)
