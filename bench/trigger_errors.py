@@ -25,12 +25,10 @@ from real_prose import ROOT, real_prose_records
 from trainer.config import load_config
 from trainer.errors import ItinerantError
 from trainer.evaluation.folds import leave_one_book_out
-from trainer.models.extractor import gold_targets
+from trainer.evaluation.scoring import prf
+from trainer.models.extractor import THRESHOLD_GRID, gold_targets
 from trainer.models.training import fit_extractor, parser_for
 from trainer.parsing.parse import parse_records
-
-GRID = tuple(round(0.05 * k, 2) for k in range(2, 14))
-
 
 def group_of(features: dict) -> str:
     """The rules' verdict on one token, from its ``rules`` group features."""
@@ -44,7 +42,7 @@ def token_f1(points: list[tuple[float, bool, str, float]], gold: int, threshold:
     """Token-level trigger F1 with one threshold per group (each point's own fold threshold ignored)."""
     tp = sum(1 for p, is_gold, group, _ in points if is_gold and p >= threshold[group])
     fp = sum(1 for p, is_gold, group, _ in points if not is_gold and p >= threshold[group])
-    return 2 * tp / (2 * tp + fp + gold - tp) if gold else 0.0
+    return prf(tp, fp, gold - tp)[2]
 
 
 def main() -> None:
@@ -90,11 +88,12 @@ def main() -> None:
     for group in groups:
         print(f"{group:36} | {gold_n[group]:4} | {found[group]:5} | {alarms[group]:5}")
     tp, fp = sum(found.values()), sum(alarms.values())
-    print(f"token-level F1 at each fold's own threshold: {2 * tp / (2 * tp + fp + total_gold - tp):.3f}")
-    single = max((token_f1(points, total_gold, dict.fromkeys(groups, t)), t) for t in GRID)
+    print(f"token-level F1 at each fold's own threshold: {prf(tp, fp, total_gold - tp)[2]:.3f}")
+    # Hindsight over the same grid the inner folds choose from.
+    single = max((token_f1(points, total_gold, dict.fromkeys(groups, t)), t) for t in THRESHOLD_GRID)
     listed = "listed, kept by the rules"
     pair = max((token_f1(points, total_gold, {g: a if g == listed else b for g in groups}), a, b)
-               for a in GRID for b in GRID)
+               for a in THRESHOLD_GRID for b in THRESHOLD_GRID)
     print(f"best single threshold with hindsight: {single[0]:.3f} at {single[1]}")
     print(f"best pair with hindsight (listed and kept; the rest): {pair[0]:.3f} at {pair[1]} and {pair[2]}")
 
