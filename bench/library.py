@@ -3,25 +3,29 @@
 1. one book: `itinerant extract` words/s against a process that only runs `nlp.pipe` over the same paragraphs
    with the same pipeline components (target: at least 0.9), and the parse's share of the extraction;
 2. a library of books: `extract --jobs 2` against `--jobs 1` (target: at least 1.7x);
-3. the same library on a local Dask cluster of two worker processes against `--jobs 1` (target: at least 1.6x);
+3. the same library on a local Dask cluster of two worker processes against `--jobs 1` (target: at least 1.6x),
+   with Dask's default worker settings and with those of `configs/dask/worker.yaml`;
 4. peak memory of `extract` on a library of many books against one of a tenth as many (target: at most 1.1x).
 
 Books are cut from the demo chapter (bench/_common.py). Usage:
 
     python bench/library.py [--words 100000] [--books 20] [--book-words 5000] [--memory-books 10,100]
-                            [--config configs/default.toml] [--skip-dask]
+                            [--config configs/default.toml] [--skip-dask] [--dask-repeats 1]
                             [--sections one-book,parallel,memory]
 """
 
 from __future__ import annotations
 
 import argparse
+import os
 import resource
 import subprocess
 import sys
 import tempfile
 import time
+from contextlib import contextmanager
 from pathlib import Path
+from typing import Iterator
 
 from _common import REPO, machine, make_book
 
@@ -60,6 +64,7 @@ print(parse, extract, parse_cpu, extract_cpu)
 PEAK = ("import resource, subprocess, sys; r = subprocess.run(sys.argv[1:], stdout=subprocess.DEVNULL); "
         "print(resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss); sys.exit(r.returncode)")
 ITINERANT = [sys.executable, "-m", "trainer.cli"]
+WORKER_SETTINGS = REPO / "configs" / "dask" / "worker.yaml"  # what docs/scaling.md recommends for workers
 
 
 def timed(command: list[str]) -> tuple[float, str]:
@@ -114,24 +119,62 @@ def one_book(args: argparse.Namespace, model: Path, tmp: Path) -> None:
 def parallel(args: argparse.Namespace, model: Path, tmp: Path) -> None:
     books = tmp / "library"
     total = library(books, args.books, args.book_words)
-    runs = {}
+    runs, cpus = {}, {}
     for name, extra in [("jobs1", ["--jobs", "1"]), ("jobs2", ["--jobs", "2"])]:
-        runs[name], _ = timed([*ITINERANT, "extract", str(model), str(books), "-o", str(tmp / name),
-                               "--no-progress", *extra])
-    print(f"2. library of {args.books} books, {total} words")
-    print(f"   --jobs 1 : {runs['jobs1']:7.1f} s {total / runs['jobs1']:8.0f} words/s")
-    print(f"   --jobs 2 : {runs['jobs2']:7.1f} s {total / runs['jobs2']:8.0f} words/s; speed-up "
+        runs[name], cpus[name], _ = cpu_timed([*ITINERANT, "extract", str(model), str(books), "-o", str(tmp / name),
+                                               "--no-progress", *extra])
+    print(f"2. library of {args.books} books, {total} words (CPU: all processes of the run)")
+    print(f"   --jobs 1 : {runs['jobs1']:7.1f} s {total / runs['jobs1']:8.0f} words/s (CPU {cpus['jobs1']:.1f} s)")
+    print(f"   --jobs 2 : {runs['jobs2']:7.1f} s {total / runs['jobs2']:8.0f} words/s (CPU {cpus['jobs2']:.1f} s); speed-up "
           f"{runs['jobs1'] / runs['jobs2']:.2f}x (target >= 1.70); identical files: {identical(tmp / 'jobs1', tmp / 'jobs2')}")
     if args.skip_dask:
         return
-    from dask.distributed import LocalCluster
+    print("3. the same library on a local Dask cluster of 2 worker processes, started before timing "
+          "(CPU: the two workers')")
+    choices = [(None, "Dask's default worker settings"), (WORKER_SETTINGS, f"settings of {WORKER_SETTINGS.relative_to(REPO)}")]
+    for run, (settings, described) in enumerate(choices * args.dask_repeats):
+        output = tmp / f"dask-{run}"
+        with dask_settings(settings.parent if settings else None):
+            seconds, (cpu, kernel, faults) = on_local_cluster(model, books, output)
+        print(f"   {described:<38}: {seconds:7.1f} s {total / seconds:8.0f} words/s (CPU {cpu:.1f} s, "
+              f"{kernel:.1f} s of it in the kernel, {faults:,} page faults); "
+              f"speed-up {runs['jobs1'] / seconds:.2f}x (target >= 1.60); identical files: {identical(tmp / 'jobs1', output)}")
 
-    with LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None) as cluster:
-        runs["dask"], _ = timed([*ITINERANT, "extract", str(model), str(books), "-o", str(tmp / "dask"),
-                                 "--no-progress", "--scheduler", cluster.scheduler_address])
-    print(f"3. Dask, 2 workers : {runs['dask']:7.1f} s {total / runs['dask']:8.0f} words/s; speed-up "
-          f"{runs['jobs1'] / runs['dask']:.2f}x (target >= 1.60); identical files: {identical(tmp / 'jobs1', tmp / 'dask')}"
-          " (cluster started before timing)")
+
+def _process_usage() -> tuple[float, float, int]:
+    usage = resource.getrusage(resource.RUSAGE_SELF)
+    return usage.ru_utime + usage.ru_stime, usage.ru_stime, usage.ru_minflt
+
+
+def on_local_cluster(model: Path, books: Path, output: Path) -> tuple[float, tuple[float, ...]]:
+    """Wall seconds of a library extraction on a local Dask cluster of two single-threaded worker processes,
+    and what its workers spent: CPU seconds, of which in the kernel, and minor page faults."""
+    from dask.distributed import Client, LocalCluster
+
+    with LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None) as cluster, \
+            Client(cluster) as client:
+        before = client.run(_process_usage)
+        seconds, _ = timed([*ITINERANT, "extract", str(model), str(books), "-o", str(output),
+                            "--no-progress", "--scheduler", cluster.scheduler_address])
+        after = client.run(_process_usage)
+    return seconds, tuple(sum(after[w][k] - before[w][k] for w in after) for k in range(3))
+
+
+@contextmanager
+def dask_settings(folder: Path | None) -> Iterator[None]:
+    """Dask's configuration read as a worker started with ``DASK_CONFIG=folder`` reads it (None: Dask's defaults)."""
+    import dask.config
+
+    saved = dict(os.environ)  # a nanny sets its workers' variables in this process's environment before it spawns them
+    if folder is not None:
+        os.environ["DASK_CONFIG"] = str(folder)  # for the worker processes, which read it when they start
+    dask.config.refresh(paths=[*dask.config.paths, *([str(folder)] if folder else [])])  # for the nannies, here
+    try:
+        yield
+    finally:
+        os.environ.clear()
+        os.environ.update(saved)
+        dask.config.refresh()
 
 
 def memory(args: argparse.Namespace, model: Path, tmp: Path) -> None:
@@ -160,6 +203,8 @@ def main() -> None:
     parser.add_argument("--memory-book-words", type=int, default=1_000, help="(books are whole copies of the demo chapter)")
     parser.add_argument("--config", type=Path, default=REPO / "configs" / "default.toml")
     parser.add_argument("--skip-dask", action="store_true")
+    parser.add_argument("--dask-repeats", type=int, default=1,
+                        help="run the two Dask settings this many times in turn (wall times vary between runs)")
     args = parser.parse_args()
     print(f"machine: {machine()}; config: {args.config.name}")
     with tempfile.TemporaryDirectory() as tmp:

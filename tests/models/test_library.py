@@ -158,3 +158,35 @@ def test_a_library_is_written_to_a_folder(tmp_path):
     with pytest.raises(OutputError, match="written to a folder"):
         extract_library(tmp_path / "never-read.itin", [library], tmp_path / "out.jsonl")
     assert not (tmp_path / "out.jsonl").exists()
+
+
+def _worker_settings() -> tuple[bool, str | None]:
+    import dask
+
+    return dask.config.get("distributed.worker.profile.enabled"), os.environ.get("MALLOC_TRIM_THRESHOLD_")
+
+
+@pytest.mark.slow
+def test_the_recommended_dask_worker_settings_reach_the_workers():
+    """configs/dask/worker.yaml, read the way `DASK_CONFIG=configs/dask dask worker ...` reads it, switches off
+    the workers' statistical profiler and leaves glibc's MALLOC_TRIM_THRESHOLD_ unset in their environment.
+    Config keys and the meaning of null from Dask distributed's own distributed.yaml and nanny (pre-spawn-environ)."""
+    dask = pytest.importorskip("dask")
+    distributed = pytest.importorskip("dask.distributed")
+    folder = Path(__file__).resolve().parents[2] / "configs" / "dask"
+    saved = dict(os.environ)  # a nanny writes its workers' variables into this process's environment
+    os.environ.pop("MALLOC_TRIM_THRESHOLD_", None)  # as in a fresh shell (an earlier test's cluster may have set it)
+    try:
+        dask.config.refresh(paths=[*dask.config.paths, str(folder)])
+        with distributed.LocalCluster(n_workers=1, threads_per_worker=1, processes=True,
+                                      dashboard_address=None) as cluster, distributed.Client(cluster) as client:
+            assert list(client.run(_worker_settings).values()) == [(False, None)]
+        os.environ.pop("MALLOC_TRIM_THRESHOLD_", None)
+        dask.config.refresh()
+        with distributed.LocalCluster(n_workers=1, threads_per_worker=1, processes=True,
+                                      dashboard_address=None) as cluster, distributed.Client(cluster) as client:
+            assert list(client.run(_worker_settings).values()) == [(True, "65536")]  # Dask's defaults, for contrast
+    finally:
+        os.environ.clear()
+        os.environ.update(saved)
+        dask.config.refresh()
