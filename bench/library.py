@@ -206,6 +206,8 @@ def main() -> None:
     parser.add_argument("--dask-repeats", type=int, default=1,
                         help="run the two Dask settings this many times in turn (wall times vary between runs)")
     args = parser.parse_args()
+    if args.dask_repeats < 1:
+        parser.error(f"--dask-repeats must be at least 1, not {args.dask_repeats}")
     print(f"machine: {machine()}; config: {args.config.name}")
     with tempfile.TemporaryDirectory() as tmp:
         tmp = Path(tmp)
