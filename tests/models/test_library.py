@@ -13,7 +13,7 @@ from pathlib import Path
 import pytest
 from typer.testing import CliRunner
 
-from tests.conftest import DEMO
+from tests.conftest import DEMO, REPO
 from trainer.cli import app
 from trainer.config import config_from_dict
 from trainer.corpus.reader import read_corpus
@@ -173,7 +173,7 @@ def test_the_recommended_dask_worker_settings_reach_the_workers():
     Config keys and the meaning of null from Dask distributed's own distributed.yaml and nanny (pre-spawn-environ)."""
     dask = pytest.importorskip("dask")
     distributed = pytest.importorskip("dask.distributed")
-    folder = Path(__file__).resolve().parents[2] / "configs" / "dask"
+    folder = REPO / "configs" / "dask"
     saved = dict(os.environ)  # a nanny writes its workers' variables into this process's environment
     os.environ.pop("MALLOC_TRIM_THRESHOLD_", None)  # as in a fresh shell (an earlier test's cluster may have set it)
     try:
