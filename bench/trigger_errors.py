@@ -30,6 +30,7 @@ from trainer.models.extractor import THRESHOLD_GRID, gold_targets
 from trainer.models.training import fit_extractor, parser_for
 from trainer.parsing.parse import parse_records
 
+
 def group_of(features: dict) -> str:
     """The rules' verdict on one token, from its ``rules`` group features."""
     if features.get("rule_blocked"):
