@@ -226,3 +226,42 @@ on      on      ADP    RP   prt    9
     assert blocking_cue(directed[4]) == "not_yet"
     assert blocking_cue(to_morrow[1]) == "future"
     assert (blocking_cue(purpose[4]), blocking_cue(purpose[9])) == ("purpose", "")
+
+
+# 'We left Caddow and, turning west, we reached Quillon.' with the participle hung from the first verb,
+# as the small English parser often does; and 'We reached Quillon, leaving Caddow, and we camped.'
+TURNING = """
+We       we       PRON   PRP  nsubj  1
+left     leave    VERB   VBD  ROOT   1
+Caddow   Caddow   PROPN  NNP  dobj   1
+and      and      CCONJ  CC   cc     1
+,        ,        PUNCT  ,    punct  5
+turning  turn     VERB   VBG  conj   1
+west     west     ADV    RB   advmod 5
+,        ,        PUNCT  ,    punct  9
+we       we       PRON   PRP  nsubj  9
+reached  reach    VERB   VBD  conj   1
+Quillon  Quillon  PROPN  NNP  dobj   9
+.        .        PUNCT  .    punct  1
+"""
+LEAVING = """
+We       we       PRON   PRP  nsubj  1
+reached  reach    VERB   VBD  ROOT   1
+Quillon  Quillon  PROPN  NNP  dobj   1
+,        ,        PUNCT  ,    punct  1
+leaving  leave    VERB   VBG  advcl  1
+Caddow   Caddow   PROPN  NNP  dobj   4
+,        ,        PUNCT  ,    punct  1
+and      and      CCONJ  CC   cc     1
+we       we       PRON   PRP  nsubj  9
+camped   camp     VERB   VBD  conj   1
+.        .        PUNCT  .    punct  1
+"""
+
+
+def test_a_fronted_participle_takes_the_subject_of_the_clause_after_it() -> None:
+    # Common practice in English grammar: a clause-initial participle is understood with the subject of the
+    # clause it stands before, wherever the parser attaches it; a trailing one keeps its governor's subject.
+    assert rule_roles(make_doc(TURNING), (5, 6), LEXICONS) == [RuleRole(8, 9, "mover", "controller")]
+    assert rule_roles(make_doc(LEAVING), (4, 5), LEXICONS) == [
+        RuleRole(0, 1, "mover", "controller"), RuleRole(5, 6, "source", "object:departure")]

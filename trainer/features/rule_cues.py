@@ -11,7 +11,8 @@ Triggers are verbs (and nouns) whose lemma is in the motion lexicons, unless
 negated, under a modal or a verb of wanting or planning, an infinitive of
 purpose, or dated to-morrow. Roles come from
 dependency patterns: the subject is the mover (shared by coordinated verbs,
-and by the participles and infinitives it controls), a prepositional object takes the role its preposition cues, and a direct
+by the participles and infinitives it controls, and by a participle fronted
+before its clause), a prepositional object takes the role its preposition cues, and a direct
 object takes the role the verb's class implies (``left X`` source,
 ``reached X`` destination, ``crossed X`` path). Each decision carries the cue
 that made it (``subject``, ``controller``, ``object:departure``, ``prep:from``, ...).
@@ -46,6 +47,12 @@ SUBJECT_DEPS = {"nsubj", "nsubjpass"}
 # A verb in one of these relations has its subject from the verb it hangs from (subject control).
 _CONTROLLED_DEPS = {"advcl", "xcomp", "pcomp"}
 _MAX_CONTROL_STEPS = 3
+# Penn tags of participles (a fronted one takes the subject of the clause after it) and of finite verbs.
+_PARTICIPLE_TAGS = {"VBG", "VBN"}
+_FINITE_TAGS = {"VBD", "VBZ", "VBP", "MD"}
+_RELATIVE_TAGS = {"WDT", "WP", "WP$"}
+_COMPLEMENT_DEPS = {"xcomp", "ccomp", "acl", "relcl", "amod", "compound", "attr", "acomp", "dobj", "pobj",
+                    "nsubj", "nsubjpass"}
 _CUT_DEPS = {"relcl", "appos", "punct", "acl", "advcl", "cc", "conj", "prep", "mark", "dep"}
 
 
@@ -142,12 +149,19 @@ def _subject(verb: Token, steps: int = 0) -> tuple[Token, str] | None:
     (``subject``); a participle, gerund or infinitive hanging from a clause
     (``advcl``, ``xcomp``, or the object of ``after``, ``on``, ``by dint of``)
     takes the subject of the verb it hangs from (``controller``: ``after
-    wandering along, we reached`` -> ``we``); a participle modifying a noun
-    takes that noun (``modified_noun``: ``sails gliding in``).
+    wandering along, we reached`` -> ``we``); a participle fronted before
+    the clause it belongs to takes that clause's subject, wherever the parser
+    hangs it (``controller``: ``turning west, we arrived`` -> ``we``); a
+    participle modifying a noun takes that noun (``modified_noun``: ``sails
+    gliding in``).
     """
     subject = next((c for c in verb.children if c.dep_ in SUBJECT_DEPS), None)
     if subject is not None:
         return subject, "subject" if steps == 0 else "controller"
+    if steps == 0 and verb.tag_ in _PARTICIPLE_TAGS and _fronted(verb):
+        fronted = _main_subject_after(verb)
+        if fronted is not None:
+            return fronted, "controller"
     if steps >= _MAX_CONTROL_STEPS or verb.head.i == verb.i:
         return None
     if verb.dep_ == "conj":
@@ -161,6 +175,61 @@ def _subject(verb: Token, steps: int = 0) -> tuple[Token, str] | None:
         if governor.pos_ in {"VERB", "AUX"}:
             return _subject(governor, steps + 1)
     return None
+
+
+def _fronted(participle: Token) -> bool:
+    """Whether a participle opens a clause that stands before the clause it belongs to.
+
+    The participle, or the preposition it follows (``after wandering``),
+    begins the sentence, follows a break (``;``, ``:``, a dash or a quote) or
+    a coordinator (``and, turning``; ``and then returning``), with at most
+    commas and one adverb in between. A participle after a comma alone may
+    trail the clause before it (``we reached Quillon, leaving Caddow``), and a
+    verb's or a noun's complement (``began ascending``) is never fronted.
+    """
+    if participle.dep_ in _COMPLEMENT_DEPS:
+        return False
+    doc = participle.doc
+    opener = participle.head if participle.dep_ == "pcomp" else participle
+    k = opener.left_edge.i - 1
+    for _ in range(2):  # commas, then one adverb and its commas
+        while k >= 0 and doc[k].text == ",":
+            k -= 1
+        if k >= 0 and doc[k].pos_ == "ADV":
+            k -= 1
+    return k < 0 or doc[k].dep_ == "cc" or (doc[k].is_punct and doc[k].text != ",")
+
+
+def _main_subject_after(participle: Token) -> Token | None:
+    """The subject of the finite clause a participial clause stands in front of, or None.
+
+    English reads a fronted participle as controlled by the subject of the
+    clause that follows it (``turning to the West, we arrived``: ``we``;
+    ``having crossed the river, its banks steep, we camped``: ``we``), whatever
+    verb the parser hangs it from. Returned: the first subject to the right of
+    the participle's phrase whose verb is finite and follows it, provided no
+    other finite verb stands between the participle and that subject (relative clauses are skipped).
+    """
+    doc = participle.doc
+    i = participle.right_edge.i + 1
+    while i < len(doc):
+        token = doc[i]
+        if token.tag_ in _RELATIVE_TAGS or any(t.dep_ in {"relcl", "acl"} for t in (token, token.head)):
+            # a relative clause in between (``a valley, that narrowed to a glen, we reached``)
+            i = max(i, token.head.i) + 1
+            continue
+        if token.dep_ in SUBJECT_DEPS and token.head.i > token.i and _finite(token.head):
+            return token
+        if token.tag_ in _FINITE_TAGS:
+            return None
+        i += 1
+    return None
+
+
+def _finite(verb: Token) -> bool:
+    """A verb with tense of its own (``arrived``, ``stands``) or a tensed auxiliary (``had gone``, ``was seen``)."""
+    return verb.tag_ in _FINITE_TAGS or any(c.dep_ in {"aux", "auxpass"} and c.tag_ in _FINITE_TAGS
+                                            for c in verb.children)
 
 
 def _coordinated(token: Token) -> list[Token]:
