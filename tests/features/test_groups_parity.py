@@ -121,21 +121,6 @@ def ref_path(token: Token, target: Token) -> tuple[str, int, bool]:
     return "".join(steps) or "self", len(steps), down_length == 0
 
 
-def ref_context(per_token: list[groups.Features], i: int) -> groups.Features:
-    out: groups.Features = {}
-    for offset in (-2, -1, 1, 2):
-        j = i + offset
-        if 0 <= j < len(per_token):
-            out.update({f"{offset:+d}:{key}": per_token[j][key] for key in groups.CONTEXT_KEYS if key in per_token[j]})
-        else:
-            out[f"{offset:+d}:edge"] = True
-    if i == 0:
-        out["BOS"] = True
-    if i == len(per_token) - 1:
-        out["EOS"] = True
-    return out
-
-
 # --- the comparisons --------------------------------------------------------
 
 
@@ -165,13 +150,6 @@ def test_token_groups_equal_the_per_token_reference(docs: list[Doc]) -> None:
         assert [typed(f) for f in groups.lexicon_group(sentence)] == [typed(ref_lexicon(t)) for t in doc]
         assert [groups.preposition_cue(doc, i, LEXICONS) for i in range(len(doc))] == [
             ref_preposition_cue(doc, i) for i in range(len(doc))]
-
-
-def test_context_equals_the_per_token_reference(docs: list[Doc]) -> None:
-    for doc in docs:
-        own = [{**groups.lexical(t), **groups.syntax(t), **groups.lexicon(t, LEXICONS)} for t in doc]
-        assert [typed(f) for f in groups.context_all(own, 2, groups.CONTEXT_KEYS)] == [
-            typed(ref_context(own, i)) for i in range(len(doc))]
 
 
 def test_trigger_paths_equal_the_per_token_reference(docs: list[Doc]) -> None:

@@ -291,37 +291,29 @@ def _lexicon(token: Token, tree: Tree, lexicons: Lexicons, gazetteer_tag: str, g
 
 def context(per_token: list[Features], i: int, window: int, keys: tuple[str, ...]) -> Features:
     """Selected features of the neighbouring tokens, prefixed by their offset ('-1:lower')."""
-    return context_all(per_token, window, keys)[i]
-
-
-def context_all(per_token: list[Features], window: int, keys: tuple[str, ...]) -> list[Features]:
-    """:func:`context` of every token, each token's own ``keys`` looked up once (not once per neighbour)."""
+    out: Features = {}
     n = len(per_token)
-    present = [[key for key in keys if key in features] for features in per_token]
-    values = [[features[key] for key in found] for features, found in zip(per_token, present)]
-    names = _context_names(window, keys)
-    out: list[Features] = []
-    for i in range(n):
-        features: Features = {}
-        for offset, edge, name_of in names:
-            j = i + offset
-            if 0 <= j < n:
-                features.update(zip(map(name_of.get, present[j]), values[j]))
-            else:
-                features[edge] = True
-        if i == 0:
-            features["BOS"] = True
-        if i == n - 1:
-            features["EOS"] = True
-        out.append(features)
+    for offset, edge, named in _context_names(window, keys):
+        j = i + offset
+        if 0 <= j < n:
+            neighbour = per_token[j]
+            for key, name in named:
+                if key in neighbour:
+                    out[name] = neighbour[key]
+        else:
+            out[edge] = True
+    if i == 0:
+        out["BOS"] = True
+    if i == n - 1:
+        out["EOS"] = True
     return out
 
 
 @functools.lru_cache(maxsize=64)
-def _context_names(window: int, keys: tuple[str, ...]) -> tuple[tuple[int, str, dict[str, str]], ...]:
-    """Per offset: the offset, its edge feature name and {key: '-1:key'}, built once per window and keys."""
+def _context_names(window: int, keys: tuple[str, ...]) -> tuple[tuple[int, str, tuple[tuple[str, str], ...]], ...]:
+    """Per offset: the offset, its edge feature name and (key, '-1:key') pairs, built once per window and keys."""
     return tuple(
-        (offset, f"{offset:+d}:edge", {key: f"{offset:+d}:{key}" for key in keys})
+        (offset, f"{offset:+d}:edge", tuple((key, f"{offset:+d}:{key}") for key in keys))
         for offset in range(-window, window + 1)
         if offset != 0
     )
@@ -494,8 +486,9 @@ def lexicon_group(sentence: Sentence) -> list[Features]:
 
 
 def context_group(sentence: Sentence) -> list[Features]:
-    """:func:`context_all`: the :data:`CONTEXT_KEYS` of the neighbours within the configured window."""
-    return context_all(sentence.features, sentence.config.window, CONTEXT_KEYS)
+    """:func:`context`: the :data:`CONTEXT_KEYS` of the neighbours within the configured window."""
+    window = sentence.config.window
+    return [context(sentence.features, i, window, CONTEXT_KEYS) for i in range(len(sentence.doc))]
 
 
 def rules_group(sentence: Sentence) -> list[Features]:
