@@ -82,6 +82,27 @@ def test_fixture_text(rode: Doc) -> None:
 # --- lexical ---------------------------------------------------------------
 
 
+def test_parse_tree_of_a_hand_parsed_doc(rode: Doc) -> None:
+    tree = groups.parse_tree(rode)
+    assert tree.heads == [1, 1, 1, 5, 5, 2, 1, 6, 1]
+    assert tree.children[1] == [0, 2, 6, 8] and tree.children[5] == [3, 4] and tree.children[0] == []
+    assert tree.chains[4] == (4, 5, 2, 1) and tree.chains[1] == (1,)
+    assert tree.lemma[4] == "sallow" and tree.lower[7] == "quillon"
+    assert tree.governing == ["", "", "", "through", "through", "through", "", "to", ""]
+    assert groups.parse_tree(rode) is tree  # made once per doc
+
+
+def test_parse_tree_of_an_unparsed_doc() -> None:
+    doc = make_doc("""
+We    we    PRON  PRP  -  -
+rode  ride  VERB  VBD  -  -
+west  west  ADV   RB   -  -
+""")
+    tree = groups.parse_tree(doc)
+    assert tree.heads == [0, 1, 2] and tree.children == [[], [], []] and tree.chains == [(0,), (1,), (2,)]
+    assert tree.governing == ["", "", ""] and groups.syntax(doc[1])["depth"] == "0"
+
+
 @pytest.mark.parametrize(
     ("text", "expected"),
     [("Caddow", "Xx"), ("d-2", "x-d"), ("NW", "X"), ("1840s", "dx"), ("O'Brien", "X'Xx"), (".", ".")],

@@ -51,6 +51,19 @@ def test_vectorize_equals_dictvectorizer_transform_on_random_rows(seed: int) -> 
     assert doubled.count(fitted.vocabulary_["a=b=c"]) == 2
 
 
+def test_vectorize_remembers_columns_per_fitted_vocabulary() -> None:
+    rng = random.Random(3)
+    fitted = DictVectorizer(sort=True).fit([random_row(rng, KEYS) for _ in range(100)])
+    rows = [random_row(rng, KEYS) for _ in range(200)]
+    first = vectorize(fitted, rows)
+    assert_same_matrix(first, fitted.transform(rows))
+    assert_same_matrix(vectorize(fitted, rows), first)  # the columns found by the first call
+    fitted.fit([{"lower": "dawn", "pos": "VERB"}, {"lower": "we"}])  # refitted: the remembered columns are stale
+    again = vectorize(fitted, rows)
+    assert_same_matrix(again, fitted.transform(rows))
+    assert again.shape == (200, 3) and sorted(fitted.vocabulary_) == ["lower=dawn", "lower=we", "pos=VERB"]
+
+
 def test_rows_with_other_kinds_of_values_take_the_reference_path() -> None:
     fitted = DictVectorizer().fit([{"tags": ["x", "y"], "n": 1.5, "w": "a"}])
     rows = [{"tags": ["y", "z"], "n": None, "w": "a"}, {"n": np.float32(2.0)}]

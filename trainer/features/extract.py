@@ -76,7 +76,7 @@ class Featurizer:
         feature augmentation (:func:`augment`); the trigger-relative features
         of :meth:`role_features` then follow the same domain.
         """
-        own: list[groups.Features] = [{"bias": 1.0} for _ in doc]
+        own: list[groups.Features] = [{"bias": 1.0} for _ in range(len(doc))]
         sentence = self._sentence(doc, own)
         # Table order, except that the groups reading the others' features come last (sorting is stable).
         for spec in sorted(enabled(self.groups), key=lambda spec: spec.reads_other_groups):
@@ -90,7 +90,7 @@ class Featurizer:
     ) -> list[groups.Features]:
         """Token features plus, when enabled, features relative to one trigger (token range)."""
         base = base if base is not None else self.token_features(doc)
-        relative: list[groups.Features] = [{} for _ in doc]
+        relative: list[groups.Features] = [{} for _ in range(len(doc))]
         sentence = self._sentence(doc, base)
         for spec in enabled(self.groups):
             if spec.trigger is not None:

@@ -14,6 +14,7 @@ from __future__ import annotations
 import functools
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Sequence
+from weakref import WeakKeyDictionary
 
 from trainer.features.lexicons import Lexicons, motion_reading
 
@@ -30,13 +31,75 @@ CONTEXT_KEYS = ("lower", "lemma", "pos", "shape", "dep", "gov_prep", "verb_class
                 "rule_trigger", "wn_first")
 
 
+@dataclass(frozen=True)
+class Tree:
+    """One parsed doc as plain lists, one item per token, for index arithmetic instead of spaCy ``Token`` hops.
+
+    spaCy makes a new ``Token`` object on every ``doc[i]``, ``token.head`` or
+    ``token.children``; the features read these lists instead. ``heads[i]`` is
+    the index of token i's head (i itself for a root or an unparsed doc),
+    ``children[i]`` the indices of its children in order; ``lower``,
+    ``lemma`` (lowercased), ``pos`` and ``dep`` hold each token's strings.
+    Holds no spaCy object, so it can be kept beside its doc (:func:`parse_tree`).
+    """
+
+    lower: list[str]
+    lemma: list[str]
+    pos: list[str]
+    dep: list[str]
+    heads: list[int]
+    children: list[list[int]]
+
+    @classmethod
+    def of(cls, doc: Doc) -> "Tree":
+        """The lists of ``doc``'s tokens."""
+        tokens = list(doc)
+        heads = [token.head.i for token in tokens]
+        children: list[list[int]] = [[] for _ in tokens]
+        for i, head in enumerate(heads):
+            if head != i:
+                children[head].append(i)
+        return cls([t.lower_ for t in tokens], [t.lemma_.lower() for t in tokens], [t.pos_ for t in tokens],
+                   [t.dep_ for t in tokens], heads, children)
+
+    @functools.cached_property
+    def chains(self) -> list[tuple[int, ...]]:
+        """Each token and its ancestors, nearest first (as ``[token, *token.ancestors]``)."""
+        heads, out = self.heads, []
+        for i in range(len(heads)):
+            chain = [i]
+            while heads[chain[-1]] != chain[-1] and len(chain) <= len(heads):
+                chain.append(heads[chain[-1]])
+            out.append(tuple(chain))
+        return out
+
+    @functools.cached_property
+    def governing(self) -> list[str]:
+        """Each token's governing preposition (:func:`governing_preposition`)."""
+        return [_governing(self, i) for i in range(len(self.heads))]
+
+
+# The tree of each live doc: the token features, every trigger's role features and the rules read the same parse.
+# Kept beside the docs (a parse is not changed after it is made), not in Doc.user_data, so nothing of it is serialised.
+_TREES: "WeakKeyDictionary[Doc, Tree]" = WeakKeyDictionary()
+
+
+def parse_tree(doc: Doc) -> Tree:
+    """The :class:`Tree` of ``doc``, made once while the doc lives."""
+    tree = _TREES.get(doc)
+    if tree is None or len(tree.heads) != len(doc):
+        tree = _TREES[doc] = Tree.of(doc)
+    return tree
+
+
 @dataclass
 class Sentence:
     """What a feature group reads: one parsed sentence, the feature settings, the word lists and the gazetteer.
 
     ``features`` holds, per token, what the groups applied before gave (the
     context group copies its neighbours' from it). The per-sentence values
-    several groups share are computed once, on first use.
+    several groups share are computed once, on first use: the doc's tokens,
+    its :class:`Tree` and each token's governing preposition.
     """
 
     doc: Doc
@@ -46,22 +109,34 @@ class Sentence:
     features: list[Features] = field(default_factory=list)
 
     @functools.cached_property
+    def tokens(self) -> list[Token]:
+        """The doc's tokens, made once for all groups."""
+        return list(self.doc)
+
+    @functools.cached_property
+    def tree(self) -> Tree:
+        """The doc's parse as lists (:func:`parse_tree`)."""
+        return parse_tree(self.doc)
+
+    @property
+    def governing(self) -> list[str]:
+        """Each token's governing preposition (:func:`governing_preposition`)."""
+        return self.tree.governing
+
+    @functools.cached_property
     def gazetteer_tags(self) -> list[str]:
         """Each token's BIO tag from the gazetteer (all ``O`` without one)."""
         return self.gazetteer.tags(self.doc) if self.gazetteer else ["O"] * len(self.doc)
 
-    @functools.cached_property
-    def governing(self) -> list[str]:
-        """Each token's governing preposition (:func:`governing_preposition`)."""
-        return [governing_preposition(token) for token in self.doc]
 
 _PP_INNER_DEPS = {"pobj", "compound", "amod", "det", "poss", "nummod", "nmod", "appos", "conj", "cc", "case", "quantmod", "flat"}
 _MAX_PREP_WORDS = 4
 DISTANCE_BUCKETS = (1, 2, 3, 5, 8, 13)
 
 
+@functools.lru_cache(maxsize=1 << 16)
 def shape(text: str) -> str:
-    """Word shape with runs collapsed: 'Caddow' -> 'Xx', 'd-2' -> 'x-d'."""
+    """Word shape with runs collapsed: 'Caddow' -> 'Xx', 'd-2' -> 'x-d' (remembered per word form)."""
     out: list[str] = []
     for ch in text:
         code = "X" if ch.isupper() else "x" if ch.isalpha() else "d" if ch.isdigit() else ch
@@ -72,16 +147,17 @@ def shape(text: str) -> str:
 
 def lexical(token: Token, affix_length: int = 3) -> Features:
     """Word form, lemma, shape, affixes, case and digits."""
-    lower = token.lower_
+    lower, word_shape = token.lower_, shape(token.text)
     return {
         "lower": lower,
         "lemma": token.lemma_.lower(),
-        "shape": shape(token.text),
+        "shape": word_shape,
         "prefix": lower[:affix_length],
         "suffix": lower[-affix_length:],
         "is_title": token.is_title,
         "is_upper": token.is_upper,
-        "has_digit": any(c.isdigit() for c in token.text),
+        # A digit is the only character the shape writes as 'd' (a letter 'd' is 'x').
+        "has_digit": "d" in word_shape,
         "is_punct": token.is_punct,
     }
 
@@ -97,32 +173,41 @@ def governing_preposition(token: Token) -> str:
     Multiword prepositions are joined ('out of', 'by way of'); '' when the token
     is not inside a prepositional phrase.
     """
-    node = token
-    while node.dep_ in _PP_INNER_DEPS and node.dep_ != "pobj" and node.head.i != node.i:
-        node = node.head
-    if node.dep_ != "pobj" or node.head.pos_ not in {"ADP", "ADV", "SCONJ"}:
+    return parse_tree(token.doc).governing[token.i]
+
+
+def _governing(tree: Tree, i: int) -> str:
+    """:func:`governing_preposition` of token i."""
+    dep, heads, pos = tree.dep, tree.heads, tree.pos
+    node = i
+    while dep[node] in _PP_INNER_DEPS and dep[node] != "pobj" and heads[node] != node:
+        node = heads[node]
+    if dep[node] != "pobj" or pos[heads[node]] not in {"ADP", "ADV", "SCONJ"}:
         return ""
-    words = [node.head]
+    words = [heads[node]]
     # Multiword prepositions chain leftwards through adjacent heads: 'out of', 'by way of'.
-    while len(words) < _MAX_PREP_WORDS and _extends_preposition(words[-1]):
-        words.append(words[-1].head)
+    while len(words) < _MAX_PREP_WORDS and _extends_preposition(tree, words[-1]):
+        words.append(heads[words[-1]])
     # A noun is only ever inside one ('way' in 'by way of'), never its first word ('island of Tarn' -> 'of').
-    while words[-1].pos_ == "NOUN":
+    while pos[words[-1]] == "NOUN":
         words.pop()
-    return " ".join(t.lower_ for t in sorted(words, key=lambda t: t.i))
+    return " ".join(tree.lower[word] for word in sorted(words))
 
 
-def _extends_preposition(word: Token) -> bool:
-    head = word.head
-    return word.dep_ in {"prep", "pobj"} and head.i == word.i - 1 and head.pos_ in {"ADP", "ADV", "NOUN"}
+def _extends_preposition(tree: Tree, word: int) -> bool:
+    head = tree.heads[word]
+    return tree.dep[word] in {"prep", "pobj"} and head == word - 1 and tree.pos[head] in {"ADP", "ADV", "NOUN"}
 
 
 def depth(token: Token) -> int:
     """Steps from the token to the root of its sentence."""
-    steps = 0
-    # spaCy makes a new Token object on every access, so compare positions, not identity.
-    while token.head.i != token.i and steps < 50:
-        token, steps = token.head, steps + 1
+    return _depth(parse_tree(token.doc), token.i)
+
+
+def _depth(tree: Tree, i: int) -> int:
+    heads, steps = tree.heads, 0
+    while heads[i] != i and steps < 50:
+        i, steps = heads[i], steps + 1
     return steps
 
 
@@ -131,35 +216,48 @@ def syntax(token: Token, gov: str | None = None) -> Features:
 
     ``gov`` is the token's governing preposition when the caller has it already.
     """
-    gov = governing_preposition(token) if gov is None else gov
+    tree = parse_tree(token.doc)
+    return _syntax(tree, token.i, tree.governing[token.i] if gov is None else gov)
+
+
+def _syntax(tree: Tree, i: int, gov: str) -> Features:
+    """:func:`syntax` of token i, given its governing preposition."""
+    dep, head = tree.dep[i], tree.heads[i]
+    children = tree.children[i]
     features: Features = {
-        "dep": token.dep_,
-        "head_lemma": token.head.lemma_.lower(),
-        "head_pos": token.head.pos_,
-        "head_dep": f"{token.dep_}<{token.head.pos_}",
+        "dep": dep,
+        "head_lemma": tree.lemma[head],
+        "head_pos": tree.pos[head],
+        "head_dep": f"{dep}<{tree.pos[head]}",
         "gov_prep": gov or "-",
-        "depth": str(min(depth(token), 6)),
-        "passive_subject": token.dep_ in {"nsubjpass", "csubjpass"},
-        "passive_verb": any(c.dep_ == "auxpass" for c in token.children),
+        "depth": str(min(_depth(tree, i), 6)),
+        "passive_subject": dep in {"nsubjpass", "csubjpass"},
+        "passive_verb": any(tree.dep[c] == "auxpass" for c in children),
     }
-    for child in token.children:
-        if child.dep_ in {"prep", "agent", "dative"}:
-            features[f"child_prep={child.lower_}"] = True
-        elif child.dep_ in {"prt", "advmod"}:
-            features[f"child_{child.dep_}={child.lower_}"] = True
+    for child in children:
+        child_dep = tree.dep[child]
+        if child_dep in {"prep", "agent", "dative"}:
+            features[f"child_prep={tree.lower[child]}"] = True
+        elif child_dep in {"prt", "advmod"}:
+            features[f"child_{child_dep}={tree.lower[child]}"] = True
     return features
 
 
 def preposition_cue(doc: Doc, i: int, lexicons: Lexicons) -> str:
     """The role cued by a (possibly multiword) preposition starting at or ending on token i."""
-    if doc[i].lower_ not in lexicons.preposition_words:
+    return _preposition_cue(parse_tree(doc), i, lexicons)
+
+
+def _preposition_cue(tree: Tree, i: int, lexicons: Lexicons) -> str:
+    lower = tree.lower
+    if lower[i] not in lexicons.preposition_words:
         return ""
     for length in range(_MAX_PREP_WORDS, 0, -1):
         for start in range(i - length + 1, i + 1):
-            if start < 0 or start + length > len(doc):
+            if start < 0 or start + length > len(lower):
                 continue
-            role = lexicons.preposition_role(" ".join(t.lower_ for t in doc[start : start + length]))
-            if role and doc[start].pos_ in {"ADP", "ADV", "SCONJ", "PART"}:
+            role = lexicons.preposition_role(" ".join(lower[start : start + length]))
+            if role and tree.pos[start] in {"ADP", "ADV", "SCONJ", "PART"}:
                 return role
     return ""
 
@@ -171,15 +269,21 @@ def lexicon(token: Token, lexicons: Lexicons, gazetteer_tag: str = "O", gov: str
     prepositional phrase gets the role its governing preposition cues
     (``gov_prep_cue``; pass ``gov`` when already computed).
     """
-    features: Features = {"gazetteer": gazetteer_tag, "direction": token.lower_ in lexicons.directions}
-    if token.pos_ in {"VERB", "AUX", "NOUN"}:
+    tree = parse_tree(token.doc)
+    return _lexicon(token, tree, lexicons, gazetteer_tag, tree.governing[token.i] if gov is None else gov)
+
+
+def _lexicon(token: Token, tree: Tree, lexicons: Lexicons, gazetteer_tag: str, gov: str) -> Features:
+    """:func:`lexicon` of a token of ``tree``'s doc, given its governing preposition."""
+    pos = tree.pos[token.i]
+    features: Features = {"gazetteer": gazetteer_tag, "direction": tree.lower[token.i] in lexicons.directions}
+    if pos in {"VERB", "AUX", "NOUN"}:
         reading = motion_reading(token, lexicons)
-        features["noun_class" if token.pos_ == "NOUN" else "verb_class"] = reading[1] if reading else "-"
-    elif token.pos_ in {"ADP", "ADV", "SCONJ", "PART"}:
-        cue = preposition_cue(token.doc, token.i, lexicons)
+        features["noun_class" if pos == "NOUN" else "verb_class"] = reading[1] if reading else "-"
+    elif pos in {"ADP", "ADV", "SCONJ", "PART"}:
+        cue = _preposition_cue(tree, token.i, lexicons)
         if cue:
             features["prep_cue"] = cue
-    gov = governing_preposition(token) if gov is None else gov
     if gov:
         features["gov_prep_cue"] = lexicons.preposition_role(gov) or "-"
     return features
@@ -229,28 +333,25 @@ def dependency_path(token: Token, target: Token) -> tuple[str, int]:
     Written ``pobj↑prep↑↓`` style: ``label↑`` for each step up from the token,
     ``↓label`` for each step down to the target. Returns the path and its length.
     """
-    path, length, _ = _path_to(token, _chain(target))
+    tree = parse_tree(token.doc)
+    path, length, _ = _path_to(tree, token.i, tree.chains[target.i])
     return path, length
 
 
-def _chain(token: Token) -> list[Token]:
-    """The token and its ancestors, nearest first."""
-    return [token, *token.ancestors]
-
-
-def _path_to(token: Token, target_chain: list[Token]) -> tuple[str, int, bool]:
-    """:func:`dependency_path` to ``target_chain[0]``, given that token's chain (shared across tokens).
+def _path_to(tree: Tree, i: int, target_chain: tuple[int, ...]) -> tuple[str, int, bool]:
+    """:func:`dependency_path` from token i to ``target_chain[0]``, given that token's chain (shared across tokens).
 
     The third item tells whether the target is the token or one of its ancestors,
     i.e. whether the token lies in the target's subtree.
     """
-    up = _chain(token)
-    up_index = {t.i: k for k, t in enumerate(up)}
-    down_length = next((k for k, t in enumerate(target_chain) if t.i in up_index), None)
+    up = tree.chains[i]
+    up_index = {t: k for k, t in enumerate(up)}
+    down_length = next((k for k, t in enumerate(target_chain) if t in up_index), None)
     if down_length is None:
         return "none", 0, False
-    up_steps = [t.dep_ + "↑" for t in up[: up_index[target_chain[down_length].i]]]
-    down_steps = ["↓" + t.dep_ for t in reversed(target_chain[:down_length])]
+    dep = tree.dep
+    up_steps = [dep[t] + "↑" for t in up[: up_index[target_chain[down_length]]]]
+    down_steps = ["↓" + dep[t] for t in reversed(target_chain[:down_length])]
     return "".join(up_steps + down_steps) or "self", len(up_steps) + len(down_steps), down_length == 0
 
 
@@ -260,55 +361,56 @@ class _Trigger:
 
     first: int
     end: int
-    head: Token
-    chain: list[Token]
+    chain: tuple[int, ...]
     lemma: str
     trigger_class: str
     verb_class: str
 
 
-def _trigger(doc: Doc, trigger: tuple[int, int], lexicons: Lexicons) -> _Trigger:
+def _trigger(doc: Doc, tree: Tree, trigger: tuple[int, int], lexicons: Lexicons) -> _Trigger:
     first, end = trigger
     head = doc[first:end].root
     lemma = head.lemma_.lower()
     reading = motion_reading(head, lexicons)
     verb_class = reading[1] if reading and head.pos_ in {"VERB", "AUX"} else lexicons.verb_class(lemma)
     trigger_class = verb_class or (reading[1] if reading else lexicons.noun_class(lemma))
-    return _Trigger(first, end, head, _chain(head), lemma, trigger_class or "-", verb_class or "-")
+    return _Trigger(first, end, tree.chains[head.i], lemma, trigger_class or "-", verb_class or "-")
 
 
-def _relative(token: Token, trigger: _Trigger) -> Features:
+def _relative(tree: Tree, i: int, trigger: _Trigger) -> Features:
     first, end = trigger.first, trigger.end
-    if first <= token.i < end:
+    if first <= i < end:
         side, distance = "in", 0
-    elif token.i < first:
-        side, distance = "before", first - token.i
+    elif i < first:
+        side, distance = "before", first - i
     else:
-        side, distance = "after", token.i - end + 1
-    path, length, in_subtree = _path_to(token, trigger.chain)
+        side, distance = "after", i - end + 1
+    path, length, in_subtree = _path_to(tree, i, trigger.chain)
     return {
         "t_side": side,
         "t_distance": bucket(distance),
         "t_side_distance": f"{side}{bucket(distance)}",
         "t_path": path,
         "t_path_length": str(min(length, 6)),
-        "t_path_dep": f"{path}|{token.dep_}",
+        "t_path_dep": f"{path}|{tree.dep[i]}",
         "t_in_subtree": in_subtree,
         "t_lemma": trigger.lemma,
         "t_class": trigger.trigger_class,
-        "t_gov_prep": f"{governing_preposition(token) or '-'}|{trigger.verb_class}",
+        "t_gov_prep": f"{tree.governing[i] or '-'}|{trigger.verb_class}",
     }
 
 
 def trigger_relative(token: Token, trigger: tuple[int, int], lexicons: Lexicons) -> Features:
     """Where the token stands relative to one trigger: side, distance, dependency path, subtree."""
-    return _relative(token, _trigger(token.doc, trigger, lexicons))
+    tree = parse_tree(token.doc)
+    return _relative(tree, token.i, _trigger(token.doc, tree, trigger, lexicons))
 
 
 def trigger_relative_all(doc: Doc, trigger: tuple[int, int], lexicons: Lexicons) -> list[Features]:
     """:func:`trigger_relative` for every token of ``doc``, with the trigger's own parts computed once."""
-    info = _trigger(doc, trigger, lexicons)
-    return [_relative(token, info) for token in doc]
+    tree = parse_tree(doc)
+    info = _trigger(doc, tree, trigger, lexicons)
+    return [_relative(tree, i, info) for i in range(len(doc))]
 
 
 def rule_trigger_tags(doc: Doc, triggers: Sequence["RuleTrigger"],
@@ -362,23 +464,25 @@ def rule_role_tags(doc: Doc, roles: Sequence["RuleRole"]) -> list[Features]:
 
 def lexical_group(sentence: Sentence) -> list[Features]:
     """:func:`lexical` with the configured affix length."""
-    return [lexical(token, sentence.config.affix_length) for token in sentence.doc]
+    return [lexical(token, sentence.config.affix_length) for token in sentence.tokens]
 
 
 def tagging_group(sentence: Sentence) -> list[Features]:
     """:func:`tagging` of every token."""
-    return [tagging(token) for token in sentence.doc]
+    return [tagging(token) for token in sentence.tokens]
 
 
 def syntax_group(sentence: Sentence) -> list[Features]:
     """:func:`syntax` of every token."""
-    return [syntax(token, gov) for token, gov in zip(sentence.doc, sentence.governing)]
+    tree = sentence.tree
+    return [_syntax(tree, i, gov) for i, gov in enumerate(tree.governing)]
 
 
 def lexicon_group(sentence: Sentence) -> list[Features]:
     """:func:`lexicon` of every token, with its gazetteer tag."""
-    return [lexicon(token, sentence.lexicons, tag, gov)
-            for token, tag, gov in zip(sentence.doc, sentence.gazetteer_tags, sentence.governing)]
+    tree, lexicons = sentence.tree, sentence.lexicons
+    return [_lexicon(token, tree, lexicons, tag, gov)
+            for token, tag, gov in zip(sentence.tokens, sentence.gazetteer_tags, tree.governing)]
 
 
 def context_group(sentence: Sentence) -> list[Features]:
@@ -392,7 +496,8 @@ def rules_group(sentence: Sentence) -> list[Features]:
     from trainer.features.rule_cues import rule_roles, rule_triggers  # loads spaCy, and imports this module
 
     doc, lexicons = sentence.doc, sentence.lexicons
-    arguments = [rule_roles(doc, (t.i, t.i + 1), lexicons) if t.pos_ == "VERB" else [] for t in doc]
+    arguments = [rule_roles(doc, (i, i + 1), lexicons) if pos == "VERB" else []
+                 for i, pos in enumerate(sentence.tree.pos)]
     return rule_trigger_tags(doc, rule_triggers(doc, lexicons), arguments)
 
 

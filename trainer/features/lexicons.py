@@ -129,15 +129,16 @@ def motion_reading(token: Token, lexicons: Lexicons) -> tuple[str, str] | None:
     listed and does not modify another noun is read as its verb's gerund
     (``by dint of sailing north``).
     """
+    pos = token.pos_
+    if pos != "NOUN" and pos not in _VERB_POS:
+        return None
     lemma = token.lemma_.lower()
-    if token.pos_ == "NOUN":
+    if pos == "NOUN":
         found = lexicons.noun_class(lemma)
         if found:
             return lemma, found
         if not token.lower_.endswith("ing") or token.dep_ in {"compound", "amod"}:
             return None
-    elif token.pos_ not in _VERB_POS:
-        return None
     readings = [lemma, *([base] if (base := verb_base(token.lower_)) and base != lemma else [])]
     particle = next((c.lower_ for c in token.children if c.dep_ == "prt"), None)
     entries = [f"{reading} {particle}" for reading in readings] if particle else []

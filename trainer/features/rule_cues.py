@@ -25,7 +25,7 @@ from weakref import WeakKeyDictionary
 
 from spacy.tokens import Doc, Token
 
-from trainer.features.groups import governing_preposition
+from trainer.features.groups import governing_preposition, parse_tree
 from trainer.features.lexicons import Lexicons, motion_reading
 
 HYPOTHETICAL_AUX = {"would", "could", "should", "might", "may", "shall", "will", "must", "ought", "can"}
@@ -238,16 +238,17 @@ def _coordinated(token: Token) -> list[Token]:
 
 
 def _prepositional_objects(head: Token, max_steps: int = 3) -> list[Token]:
-    """Objects of prepositions attached to ``head`` (through 'out of', 'by way of' chains)."""
+    """Objects of prepositions attached to ``head`` (through 'out of', 'by way of' chains), in text order."""
+    tree = parse_tree(head.doc)
     found = []
-    for token in head.subtree:
-        if token.dep_ != "pobj":
+    for i, dep in enumerate(tree.dep):
+        if dep != "pobj":
             continue
-        node, steps = token.head, 0
-        while node.i != head.i and node.dep_ in {"prep", "pobj"} and steps < max_steps:
-            node, steps = node.head, steps + 1
-        if node.i == head.i:
-            found.append(token)
+        node, steps = tree.heads[i], 0
+        while node != head.i and tree.dep[node] in {"prep", "pobj"} and steps < max_steps:
+            node, steps = tree.heads[node], steps + 1
+        if node == head.i:  # only a token in head's subtree gets there
+            found.append(head.doc[i])
     return found
 
 

@@ -181,4 +181,4 @@ def wordnet_features(token: Token, classes: WordNetClasses) -> dict[str, str | b
 def wordnet_group(sentence: Sentence) -> list[Features]:
     """:func:`wordnet_features` of every token, with the packaged classes."""
     classes = packaged_classes()
-    return [wordnet_features(token, classes) for token in sentence.doc]
+    return [wordnet_features(token, classes) for token in sentence.tokens]

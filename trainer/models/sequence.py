@@ -10,6 +10,7 @@ from __future__ import annotations
 
 from array import array
 from typing import Any, Mapping, Sequence
+from weakref import WeakKeyDictionary
 
 import numpy as np
 import pycrfsuite
@@ -66,6 +67,12 @@ def marginal_spans(distributions: list[dict[str, float]], label: str, threshold:
     return out
 
 
+# Columns already found, per fitted vectorizer: (its vocabulary, {key: {string value: column}}). Only columns that
+# exist are kept, so there are never more entries than vocabulary entries. Kept beside the vectorizer, not on it,
+# so nothing of it is pickled with a model; refitting (a new vocabulary) starts afresh.
+_COLUMNS: "WeakKeyDictionary[DictVectorizer, tuple[dict[str, int], dict[str, dict[str, int]]]]" = WeakKeyDictionary()
+
+
 def vectorize(vectorizer: DictVectorizer, rows: Sequence[Mapping[str, Any]]) -> sp.csr_matrix:
     """``vectorizer.transform(rows)`` for a fitted sparse DictVectorizer, with less work per feature.
 
@@ -74,29 +81,45 @@ def vectorize(vectorizer: DictVectorizer, rows: Sequence[Mapping[str, Any]]) -> 
     ``key<separator>value`` with value 1, a number names the column ``key``;
     unseen columns are dropped. Unlike ``transform`` it does not test each value
     against the abstract ``Number`` nor convert each to the dtype one at a
-    time. Rows holding any other kind of value (None, lists, ...) go to
-    ``transform`` itself.
+    time, and it remembers, across calls, the column of each (key, string
+    value) pair it found instead of building ``key<separator>value`` again.
+    Rows holding any other kind of value (None, lists, ...) go to ``transform`` itself.
     """
     if not rows or not vectorizer.sparse:
         return vectorizer.transform(rows)
-    column_of = vectorizer.vocabulary_.get
+    vocabulary = vectorizer.vocabulary_
+    entry = _COLUMNS.get(vectorizer)
+    if entry is None or entry[0] is not vocabulary:
+        entry = _COLUMNS[vectorizer] = (vocabulary, {})
+    found = entry[1]
+    column_of = vocabulary.get
     separator = vectorizer.separator
     indices, values, indptr = array("i"), [], [0]
+    add_index, add_value = indices.append, values.append
     for row in rows:
         for key, value in row.items():
             if type(value) is str:
-                column = column_of("%s%s%s" % (key, separator, value))
+                by_value = found.get(key)
+                if by_value is None:
+                    by_value = found[key] = {}
+                column = by_value.get(value)
+                if column is None:
+                    column = column_of("%s%s%s" % (key, separator, value))
+                    if column is None:
+                        continue
+                    by_value[value] = column
                 value = 1
             elif isinstance(value, (int, float)):  # bool is an int
                 column = column_of(key)
+                if column is None:
+                    continue
             else:
                 return vectorizer.transform(rows)
-            if column is not None:
-                indices.append(column)
-                values.append(value)
+            add_index(column)
+            add_value(value)
         indptr.append(len(indices))
     matrix = sp.csr_matrix((np.asarray(values, dtype=vectorizer.dtype), np.frombuffer(indices, dtype=np.intc), indptr),
-                           shape=(len(rows), len(vectorizer.vocabulary_)), dtype=vectorizer.dtype)
+                           shape=(len(rows), len(vocabulary)), dtype=vectorizer.dtype)
     matrix.sort_indices()
     return matrix
 
