@@ -183,7 +183,7 @@ def _fronted(participle: Token) -> bool:
     The participle, or the preposition it follows (``after wandering``),
     begins the sentence, follows a break (``;``, ``:``, a dash or a quote) or
     a coordinator (``and, turning``; ``and then returning``), with at most
-    commas and one adverb in between. A participle after a comma alone may
+    commas and two adverbs in between. A participle after a comma alone may
     trail the clause before it (``we reached Quillon, leaving Caddow``), and a
     verb's or a noun's complement (``began ascending``) is never fronted.
     """
@@ -192,7 +192,7 @@ def _fronted(participle: Token) -> bool:
     doc = participle.doc
     opener = participle.head if participle.dep_ == "pcomp" else participle
     k = opener.left_edge.i - 1
-    for _ in range(2):  # commas, then one adverb and its commas
+    for _ in range(2):  # twice: commas, then one adverb
         while k >= 0 and doc[k].text == ",":
             k -= 1
         if k >= 0 and doc[k].pos_ == "ADV":
