@@ -47,7 +47,8 @@ SUBJECT_DEPS = {"nsubj", "nsubjpass"}
 # A verb in one of these relations has its subject from the verb it hangs from (subject control).
 _CONTROLLED_DEPS = {"advcl", "xcomp", "pcomp"}
 _MAX_CONTROL_STEPS = 3
-# Penn tags of participles (a fronted one takes the subject of the clause after it) and of finite verbs.
+# Penn tags of participles (one modifying a noun takes that noun as its mover, a fronted one the subject of the
+# clause after it) and of finite verbs.
 _PARTICIPLE_TAGS = {"VBG", "VBN"}
 _FINITE_TAGS = {"VBD", "VBZ", "VBP", "MD"}
 _RELATIVE_TAGS = {"WDT", "WP", "WP$"}
@@ -166,7 +167,7 @@ def _subject(verb: Token, steps: int = 0) -> tuple[Token, str] | None:
         return None
     if verb.dep_ == "conj":
         return _subject(verb.head, steps)
-    if verb.dep_ == "acl" and verb.tag_ in {"VBG", "VBN"} and verb.head.pos_ in {"NOUN", "PROPN", "PRON"}:
+    if verb.dep_ == "acl" and verb.tag_ in _PARTICIPLE_TAGS and verb.head.pos_ in {"NOUN", "PROPN", "PRON"}:
         return verb.head, "modified_noun"
     if verb.dep_ in _CONTROLLED_DEPS:
         governor = verb.head
