@@ -425,7 +425,7 @@ def rule_trigger_tags(doc: Doc, triggers: Sequence["RuleTrigger"],
     each source, path or destination found, and ``rule_args`` for their set,
     so a verb missing from the lexicons still shows spatial arguments.
     """
-    out: list[Features] = [{"rule_trigger": "O"} for _ in doc]
+    out: list[Features] = [{"rule_trigger": "O"} for _ in range(len(doc))]
     for features, found in zip(out, arguments):
         roles = sorted({r.role for r in found if r.role != "mover"})
         if roles:
@@ -449,7 +449,7 @@ def rule_role_tags(doc: Doc, roles: Sequence["RuleRole"]) -> list[Features]:
     what gave it (``subject``, ``object:departure``, ``prep:from``, ``possessor``).
     Where two rule spans overlap, the first one listed wins.
     """
-    out: list[Features] = [{"rule_role": "O"} for _ in doc]
+    out: list[Features] = [{"rule_role": "O"} for _ in range(len(doc))]
     for role in roles:
         if any(out[i]["rule_role"] != "O" for i in range(role.first, role.end)):
             continue
