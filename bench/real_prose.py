@@ -11,12 +11,16 @@ see its ``SOURCES.md``):
    packaged demo corpus as auxiliary corpus, with feature augmentation, and
    without each of its new feature groups (rule decisions, WordNet classes);
 2. every config trained on the whole invented demo corpus
-   (``demo_annotations/train``) and applied to all real-prose sentences.
+   (``demo_annotations/train``) and applied to all real-prose sentences;
+3. with ``--curve``, a learning curve on the same folds: the default with and
+   without its auxiliary corpus and the CRF config trained on growing shares
+   of the five training books' chapters (the held-out book unchanged), against
+   the rules, which need no training.
 
 All figures come from this one run; nothing is asserted here
 (``tests/external/test_real_prose.py`` asserts the headline comparison).
 
-    python bench/real_prose.py [--jobs 2] [--bootstrap 1000]
+    python bench/real_prose.py [--jobs 2] [--bootstrap 1000] [--curve]
 """
 
 from __future__ import annotations
@@ -34,7 +38,8 @@ from trainer.evaluation.bootstrap import bootstrap_f1s
 from trainer.experiment.crossval import run_crossval
 from trainer.evaluation.folds import leave_one_book_out
 from trainer.evaluation.scoring import CorpusCounts, count_corpus
-from trainer.evaluation.summary import fold_counts, pool_folds
+from trainer.evaluation.summary import EvaluationSettings, fold_counts, pool_folds
+from trainer.experiment.curve import learning_curve
 from trainer.models.training import fit_extractor, parser_for
 from trainer.parsing.parse import parse_records
 
@@ -131,6 +136,26 @@ def demo_trained_rows(records: Sequence[Record], systems: Sequence[ExperimentCon
     return rows
 
 
+CURVE_SHARES = (0.1, 0.25, 0.5, 1.0)
+
+
+def curve_lines(records: Sequence[Record], *, jobs: int = 1, bootstrap: int = 1000, seed: int = 13) -> list[str]:
+    """Leave-one-book-out overlap role and trigger F1 against the share of the training chapters, one line per point."""
+    systems = [s for s in configs(("rules", "crf", "default")) if s.name in {"rules", "crf", "default", "default, no auxiliary"}]
+    plan = leave_one_book_out([r.doc for r in records])
+    settings = EvaluationSettings(mode="overlap", bootstrap_samples=bootstrap, seed=seed)
+    curve = learning_curve(records, systems, [plan], shares=CURVE_SHARES, settings=settings, jobs=jobs)
+    lines = [f"{'extractor':24} | {'share':>5} | target sentences | role F1 overlap [95% CI] | trigger F1"]
+    for name, points in curve["systems"].items():
+        untrained = name == "rules"  # the same at every share: one line
+        for point in points[-1:] if untrained else points:
+            low, high = point["intervals"]["micro"]
+            share = "-" if untrained else f"{point['share']:g}"
+            lines.append(f"{name:24} | {share:>5} | {point['train_records']:16.1f} | "
+                         f"{point['f1']['micro']:.3f} [{low:.3f}, {high:.3f}]   | {point['f1']['trigger']:.3f}")
+    return lines
+
+
 HEADER = (f"{'extractor':28} | role F1 overlap [95% CI] | role F1 exact [95% CI]  | trigger F1 | "
           "roles | gold triggers")
 
@@ -139,6 +164,8 @@ def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.split("\n")[0])
     parser.add_argument("--jobs", type=int, default=2, help="worker processes for the folds")
     parser.add_argument("--bootstrap", type=int, default=1000, help="bootstrap samples per interval")
+    parser.add_argument("--curve", action="store_true",
+                        help="also the learning curve over shares of the training chapters (about 15 more minutes on 2 cores)")
     args = parser.parse_args()
     records = real_prose_records()
     books = sorted({r.doc.rsplit("-", 1)[0] for r in records})
@@ -154,6 +181,9 @@ def main() -> None:
     print(HEADER)
     for row in demo_trained_rows(records, configs(ablations=False), bootstrap=args.bootstrap):
         print(row.line())
+    if args.curve:
+        print("\nLearning curve, leave one book out (shares of the five training books' chapters, averaged over the six folds):")
+        print(*curve_lines(records, jobs=args.jobs, bootstrap=args.bootstrap), sep="\n")
     print(f"\n{time.perf_counter() - started:.0f} s in all")
 
 
