@@ -228,6 +228,39 @@ on      on      ADP    RP   prt    9
     assert (blocking_cue(purpose[4]), blocking_cue(purpose[9])) == ("purpose", "")
 
 
+def test_a_time_noun_as_subject_or_object_blocks_a_motion_verb() -> None:
+    from trainer.features.rule_cues import blocking_cue
+
+    # 'Night came on, and we passed an uncomfortable night by the ford; at dawn we passed the ford.'
+    # 'night' and 'dawn' are time nouns by their first WordNet 3.0 sense (noun.time), 'ford' is not.
+    doc = make_doc("""
+Night          night          NOUN   NN   nsubj  1
+came           come           VERB   VBD  ROOT   1
+on             on             ADP    RP   prt    1
+,              ,              PUNCT  ,    punct  1
+and            and            CCONJ  CC   cc     1
+we             we             PRON   PRP  nsubj  6
+passed         pass           VERB   VBD  conj   1
+an             an             DET    DT   det    9
+uncomfortable  uncomfortable  ADJ    JJ   amod   9
+night          night          NOUN   NN   dobj   6
+by             by             ADP    IN   prep   6
+the            the            DET    DT   det    12
+ford           ford           NOUN   NN   pobj   10
+;              ;              PUNCT  :    punct  1
+at             at             ADP    IN   prep   17
+dawn           dawn           NOUN   NN   pobj   14
+we             we             PRON   PRP  nsubj  17
+passed         pass           VERB   VBD  conj   1
+the            the            DET    DT   det    19
+ford           ford           NOUN   NN   dobj   17
+.              .              PUNCT  .    punct  1
+""")
+    assert [blocking_cue(doc[i]) for i in (1, 6, 17)] == ["time_subject", "time_object", ""]
+    assert [(t.first, t.blocked) for t in rule_triggers(doc, LEXICONS)] == [
+        (1, "time_subject"), (6, "time_object"), (17, "")]
+
+
 # 'We left Caddow and, turning west, we reached Quillon.' with the participle hung from the first verb,
 # as the small English parser often does; and 'We reached Quillon, leaving Caddow, and we camped.'
 TURNING = """

@@ -27,6 +27,7 @@ from spacy.tokens import Doc, Token
 
 from trainer.features.groups import governing_preposition, parse_tree
 from trainer.features.lexicons import Lexicons, motion_reading
+from trainer.features.wordnet import argument_class, packaged_classes
 
 HYPOTHETICAL_AUX = {"would", "could", "should", "might", "may", "shall", "will", "must", "ought", "can"}
 # Verbs of wanting, planning, deciding, asking and ordering: a motion verb under them is not yet carried out
@@ -39,6 +40,8 @@ NOT_YET_HEADS = {
 }
 # Words that put a present-tense verb in the future (`I start to-morrow for Oban`).
 FUTURE_WORDS = {"to-morrow", "tomorrow", "morrow"}
+# A motion verb with a time noun as its subject or object tells of time passing, not of a change of place.
+_TIME_ARGUMENT_CUES = {"nsubj": "time_subject", "dobj": "time_object"}
 OBJECT_ROLE_BY_CLASS = {
     "departure": "source", "arrival": "destination", "traversal": "path",
     "ascent_descent": "path", "return": "destination",
@@ -109,7 +112,10 @@ def blocking_cue(verb: Token) -> str:
     ``negated``; ``modal`` (`would`, `must`, ...); ``not_yet``, under a verb of
     wanting, planning or ordering (:data:`NOT_YET_HEADS`); ``purpose``, an
     infinitive of purpose (`rose to go`, `the wish to visit`); ``future``, a
-    verb dated to-morrow.
+    verb dated to-morrow; ``time_subject`` and ``time_object``, a verb whose
+    subject or direct object is a time noun by its first WordNet sense, so
+    time passes rather than anyone changing place (`night came on`, `the
+    hour arrived`, `we passed an uncomfortable night`).
     """
     children = list(verb.children)
     if any(c.dep_ == "neg" for c in children):
@@ -123,6 +129,10 @@ def blocking_cue(verb: Token) -> str:
     # 'to-morrow' is parsed as 'to' + '-' + 'morrow', a prepositional phrase of the verb
     if any(word.lower_ in FUTURE_WORDS for c in children for word in (c, *c.children)):
         return "future"
+    for child in children:
+        cue = _TIME_ARGUMENT_CUES.get(child.dep_)
+        if cue and child.pos_ == "NOUN" and argument_class(child, packaged_classes()) == "time":
+            return cue
     return ""
 
 

@@ -145,7 +145,7 @@ _POS = {"VERB": "v", "NOUN": "n"}
 _ARGUMENT_DEPS = {"nsubj": "wn_subject", "nsubjpass": "wn_subject", "dobj": "wn_object"}
 
 
-def _first_class(token: Token, classes: WordNetClasses) -> str:
+def argument_class(token: Token, classes: WordNetClasses) -> str:
     """The class of a verb argument's head: its first WordNet noun class, or its kind when it has none."""
     if token.pos_ == "PRON":
         return "pronoun"
@@ -174,7 +174,7 @@ def wordnet_features(token: Token, classes: WordNetClasses) -> dict[str, str | b
         for child in token.children:
             name = _ARGUMENT_DEPS.get(child.dep_)
             if name and name not in features:
-                features[name] = _first_class(child, classes)
+                features[name] = argument_class(child, classes)
     return features
 
 
