@@ -97,6 +97,33 @@ def test_unknown_scheduler_package_message(monkeypatch, small, nlp, serial):
         crossval_module._dispatch([], jobs=1, scheduler="tcp://127.0.0.1:1", progress=None)
 
 
+def test_local_workers_hide_only_the_pool_s_worker_replaced_warning(monkeypatch):
+    import inspect
+    import warnings
+
+    from joblib.externals.loky import process_executor
+
+    # The message as joblib's loky pool (the reference library) words it when its memory guard replaces a worker.
+    assert "A worker stopped while some jobs were given to the " in inspect.getsource(process_executor)
+
+    class WarningPool:
+        def __init__(self, **kwargs):
+            pass
+
+        def __call__(self, tasks):
+            warnings.warn(crossval_module.WORKER_REPLACED + ". This can be caused by a too short worker timeout "
+                          "or by a memory leak.", UserWarning)
+            warnings.warn("something else went wrong", UserWarning)
+            return [function(*args, **kwargs) for function, args, kwargs in tasks]
+
+    monkeypatch.setattr(crossval_module, "Parallel", WarningPool)
+    tasks = [(lambda n: n * 2, (n,), {}) for n in range(3)]
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        assert crossval_module._dispatch(tasks, jobs=2, scheduler=None, progress=None) == [0, 2, 4]
+    assert [str(w.message) for w in caught] == ["something else went wrong"]
+
+
 def test_report_scores_per_doc_and_book_pool_to_the_overall_counts_and_warn_about_three_docs(serial):
     from trainer.evaluation.breakdown import pooled_totals
     from trainer.evaluation.scoring import Counts

@@ -11,6 +11,7 @@ records are in :mod:`trainer.evaluation.runs`.
 from __future__ import annotations
 
 import time
+import warnings
 from dataclasses import replace
 from pathlib import Path
 from typing import Any, Sequence
@@ -124,6 +125,12 @@ def run_crossval(
     return CrossvalRun(annotated, list(plans), systems, parse_seconds, parsed, cached, list(docs), auxiliary)
 
 
+# joblib's process pool (loky) replaces a worker whose memory has grown by more than 300 MB since its first
+# task, and says so with this warning when tasks are still waiting. The worker sends its fold's result back
+# before that check, so nothing is lost or run twice; a fold with an auxiliary corpus can grow a worker that much.
+WORKER_REPLACED = "A worker stopped while some jobs were given to the executor"
+
+
 def _dispatch(tasks: list, *, jobs: int, scheduler: str | None, progress: Progress | None) -> list[FoldOutput]:
     """Run the training tasks serially, in local worker processes, or on a Dask cluster; order is kept."""
     if scheduler:
@@ -137,7 +144,9 @@ def _dispatch(tasks: list, *, jobs: int, scheduler: str | None, progress: Progre
         with Client(scheduler), parallel_config(backend="dask"):
             return Parallel(n_jobs=-1)(tasks)
     if jobs > 1:
-        return Parallel(n_jobs=jobs, prefer="processes", verbose=10 if progress else 0)(tasks)
+        with warnings.catch_warnings():
+            warnings.filterwarnings("ignore", message=WORKER_REPLACED, category=UserWarning)
+            return Parallel(n_jobs=jobs, prefer="processes", verbose=10 if progress else 0)(tasks)
     return _serial(tasks, progress)
 
 
