@@ -10,12 +10,16 @@ see its ``SOURCES.md``):
    the CRF and logistic configs, and the default config with and without the
    packaged demo corpus as auxiliary corpus, with feature augmentation, and
    without each of its new feature groups (rule decisions, WordNet classes);
+   then, on the two books a second annotator labelled blind
+   (``tests/external/real-prose/second-annotator.jsonl``), that annotator
+   against the corpus and the default's held-out predictions against each;
 2. every config trained on the whole invented demo corpus
    (``demo_annotations/train``) and applied to all real-prose sentences;
 3. with ``--curve``, a learning curve on the same folds: the default with and
    without its auxiliary corpus and the CRF config trained on growing shares
    of the five training books' chapters (the held-out book unchanged), against
-   the rules, which need no training.
+   the rules, which need no training; the whole share is the run of step 1,
+   not trained again.
 
 All figures come from this one run; nothing is asserted here
 (``tests/external/test_real_prose.py`` asserts the headline comparison).
@@ -37,6 +41,7 @@ from trainer.corpus.records import Record
 from trainer.evaluation.bootstrap import bootstrap_f1s
 from trainer.experiment.crossval import run_crossval
 from trainer.evaluation.folds import leave_one_book_out
+from trainer.evaluation.runs import CrossvalRun
 from trainer.evaluation.scoring import CorpusCounts, count_corpus
 from trainer.evaluation.summary import EvaluationSettings, fold_counts, pool_folds
 from trainer.experiment.curve import learning_curve
@@ -46,6 +51,8 @@ from trainer.parsing.parse import parse_records
 ROOT = Path(__file__).resolve().parents[1]
 REAL_PROSE = ROOT / "tests" / "external" / "real-prose" / "corpus"
 DEMO_TRAIN = ROOT / "demo_annotations" / "train"
+# Two of the books annotated a second time, blind, from the spec and the annotation guide only (see SOURCES.md).
+SECOND_ANNOTATOR = ROOT / "tests" / "external" / "real-prose" / "second-annotator.jsonl"
 MODES = ("overlap", "exact")
 
 
@@ -106,11 +113,14 @@ def _row(name: str, counts: dict[str, CorpusCounts], roles: Sequence[str], *, bo
                {mode: scores[mode].trigger.f1 for mode in MODES}, given or {})
 
 
-def leave_one_book_out_rows(records: Sequence[Record], systems: Sequence[ExperimentConfig], *, jobs: int = 1,
-                            bootstrap: int = 1000, seed: int = 13) -> list[Row]:
-    """Leave-one-book-out scores of each config on the real-prose records."""
-    plan = leave_one_book_out([r.doc for r in records])
-    run = run_crossval(records, systems, [plan], jobs=jobs)
+def leave_one_book_out_run(records: Sequence[Record], systems: Sequence[ExperimentConfig], *,
+                           jobs: int = 1) -> CrossvalRun:
+    """Each config cross-validated on the real-prose records, one book held out per fold."""
+    return run_crossval(records, systems, [leave_one_book_out([r.doc for r in records])], jobs=jobs)
+
+
+def run_rows(run: CrossvalRun, *, bootstrap: int = 1000, seed: int = 13) -> list[Row]:
+    """One table row per config of a run: pooled scores in both modes, and with gold triggers."""
     rows = []
     for system in run.systems:
         roles = system.config.roles
@@ -119,6 +129,12 @@ def leave_one_book_out_rows(records: Sequence[Record], systems: Sequence[Experim
                                   ).scores().micro.f1 for mode in MODES}
         rows.append(_row(system.name, counts, roles, bootstrap=bootstrap, seed=seed, given=given))
     return rows
+
+
+def leave_one_book_out_rows(records: Sequence[Record], systems: Sequence[ExperimentConfig], *, jobs: int = 1,
+                            bootstrap: int = 1000, seed: int = 13) -> list[Row]:
+    """Leave-one-book-out scores of each config on the real-prose records."""
+    return run_rows(leave_one_book_out_run(records, systems, jobs=jobs), bootstrap=bootstrap, seed=seed)
 
 
 def demo_trained_rows(records: Sequence[Record], systems: Sequence[ExperimentConfig], *,
@@ -136,15 +152,47 @@ def demo_trained_rows(records: Sequence[Record], systems: Sequence[ExperimentCon
     return rows
 
 
+def agreement_lines(run: CrossvalRun, name: str = "default") -> list[str]:
+    """Overlap trigger and role F1 on the sentences the second annotator labelled: that annotator against the
+    corpus, and one config's held-out predictions from ``run`` against each annotator."""
+    second = {r.id: r for r in read_corpus([SECOND_ANNOTATOR]).records if r.is_annotated}
+    gold = [r for r in run.records if r.id in second]
+    system = next(s for s in run.systems if s.name == name)
+    predicted = {r.id: r for r in system.predictions()}
+    again, held_out = [second[r.id] for r in gold], [predicted[r.id] for r in gold]
+    lines = [f"{len(gold)} sentences ({', '.join(sorted({r.doc.rsplit('-', 1)[0] for r in gold}))}), overlap mode",
+             f"{'reference':18} | {'compared':18} | trigger P / R / F1    | role F1"]
+    for reference, compared, ref, hyp in (("corpus", "second annotator", gold, again), ("corpus", name, gold, held_out),
+                                          ("second annotator", name, again, held_out)):
+        scores = count_corpus(ref, hyp, roles=system.config.roles, mode="overlap").scores()
+        trigger = scores.trigger
+        lines.append(f"{reference:18} | {compared:18} | {trigger.precision:.3f} / {trigger.recall:.3f} / "
+                     f"{trigger.f1:.3f} | {scores.micro.f1:.3f}")
+    return lines
+
+
 CURVE_SHARES = (0.1, 0.25, 0.5, 1.0)
+CURVE_SYSTEMS = ("rules", "crf", "default", "default, no auxiliary")
 
 
-def curve_lines(records: Sequence[Record], *, jobs: int = 1, bootstrap: int = 1000, seed: int = 13) -> list[str]:
-    """Leave-one-book-out overlap role and trigger F1 against the share of the training chapters, one line per point."""
-    systems = [s for s in configs(("rules", "crf", "default")) if s.name in {"rules", "crf", "default", "default, no auxiliary"}]
+def curve_lines(records: Sequence[Record], *, jobs: int = 1, bootstrap: int = 1000, seed: int = 13,
+                full_run: CrossvalRun | None = None) -> list[str]:
+    """Leave-one-book-out overlap role and trigger F1 against the share of the training chapters, one line per point.
+
+    ``full_run``, a :func:`leave_one_book_out_run` holding at least the curve's configs, is their
+    share-1.0 point, so those folds are not trained twice.
+    """
+    systems = [s for s in configs(("rules", "crf", "default")) if s.name in CURVE_SYSTEMS]
     plan = leave_one_book_out([r.doc for r in records])
     settings = EvaluationSettings(mode="overlap", bootstrap_samples=bootstrap, seed=seed)
-    curve = learning_curve(records, systems, [plan], shares=CURVE_SHARES, settings=settings, jobs=jobs)
+    docs = None
+    if full_run is not None:
+        kept = [s for s in full_run.systems if s.name in CURVE_SYSTEMS]
+        if [s.name for s in kept] != [s.name for s in systems]:
+            raise ValueError(f"the full run lacks some of the curve's configs: has {[s.name for s in kept]}")
+        full_run, docs = replace(full_run, systems=kept), full_run.docs
+    curve = learning_curve(records, systems, [plan], shares=CURVE_SHARES, settings=settings, jobs=jobs,
+                           docs=docs, full_run=full_run)
     lines = [f"{'extractor':24} | {'share':>5} | target sentences | role F1 overlap [95% CI] | trigger F1"]
     for name, points in curve["systems"].items():
         untrained = name == "rules"  # the same at every share: one line
@@ -165,7 +213,7 @@ def main() -> None:
     parser.add_argument("--jobs", type=int, default=2, help="worker processes for the folds")
     parser.add_argument("--bootstrap", type=int, default=1000, help="bootstrap samples per interval")
     parser.add_argument("--curve", action="store_true",
-                        help="also the learning curve over shares of the training chapters (about 15 more minutes on 2 cores)")
+                        help="also the learning curve over shares of the training chapters (about 11 more minutes on 2 cores)")
     args = parser.parse_args()
     records = real_prose_records()
     books = sorted({r.doc.rsplit("-", 1)[0] for r in records})
@@ -175,15 +223,18 @@ def main() -> None:
     started = time.perf_counter()
     print("\nLeave one book out (trained on five real books, plus any auxiliary corpus of the config):")
     print(HEADER)
-    for row in leave_one_book_out_rows(records, systems, jobs=args.jobs, bootstrap=args.bootstrap):
+    run = leave_one_book_out_run(records, systems, jobs=args.jobs)
+    for row in run_rows(run, bootstrap=args.bootstrap):
         print(row.line())
+    print("\nTwo annotators and the default (held out) on the same sentences:")
+    print(*agreement_lines(run), sep="\n")
     print("\nTrained on the whole demo corpus, applied to all real-prose sentences:")
     print(HEADER)
     for row in demo_trained_rows(records, configs(ablations=False), bootstrap=args.bootstrap):
         print(row.line())
     if args.curve:
         print("\nLearning curve, leave one book out (shares of the five training books' chapters, averaged over the six folds):")
-        print(*curve_lines(records, jobs=args.jobs, bootstrap=args.bootstrap), sep="\n")
+        print(*curve_lines(records, jobs=args.jobs, bootstrap=args.bootstrap, full_run=run), sep="\n")
     print(f"\n{time.perf_counter() - started:.0f} s in all")
 
 

@@ -35,6 +35,21 @@ def test_every_book_is_named_in_the_sources_file() -> None:
         assert f"`{book.stem}`" in sources, f"{book.stem} is not described in SOURCES.md"
 
 
+def test_the_second_annotation_covers_two_books_with_the_corpus_s_own_ids_and_texts() -> None:
+    from trainer.annotation.agreement import agreement_files
+    from trainer.corpus.reader import read_corpus
+
+    second = read_corpus([REAL_PROSE / "second-annotator.jsonl"]).records
+    corpus = {r.id: r for r in read_corpus([REAL_PROSE / "corpus"]).records}
+    assert all(r.is_annotated and (corpus[r.id].doc, corpus[r.id].text) == (r.doc, r.text) for r in second)
+    books = {r.doc.rsplit("-", 1)[0] for r in second}
+    assert books == {"dana-mast", "park-interior"}
+    # every sentence of those two books, no more
+    assert sorted(r.id for r in second) == sorted(i for i, r in corpus.items() if r.doc.rsplit("-", 1)[0] in books)
+    result = agreement_files([REAL_PROSE / "corpus", REAL_PROSE / "second-annotator.jsonl"])
+    assert sorted(result.compared) == sorted(r.id for r in second) and len(second) == 158
+
+
 @pytest.mark.slow
 def test_the_learned_default_beats_the_rules_leaving_one_book_out() -> None:
     bench = load_bench("real_prose")
