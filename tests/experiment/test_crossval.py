@@ -161,6 +161,17 @@ def test_learning_curve_always_ends_at_the_full_training_set_with_intervals_for_
             assert "only 3 doc(s)" in point["interval_warning"]
 
 
+def test_learning_curve_refuses_a_full_run_of_other_configs(small, serial):
+    from dataclasses import replace
+
+    from trainer.errors import ConfigError
+
+    records, configs, plans = small
+    for run in (replace(serial, systems=serial.systems[:1]), replace(serial, systems=serial.systems[::-1])):
+        with pytest.raises(ConfigError, match="the full run holds configs"):
+            learning_curve(records, configs, plans, shares=(0.5,), docs=serial.docs, full_run=run)
+
+
 def test_explained_run_keeps_the_features_behind_every_learned_predicted_span(small, nlp, serial):
     records, configs, plans = small
     run = run_crossval(records, configs, plans, nlp=nlp, docs=serial.docs, explain=True)

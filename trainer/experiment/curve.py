@@ -51,6 +51,9 @@ def learning_curve(
     """
     if not shares or any(not 0 < s <= 1 for s in shares):
         raise ConfigError(f"shares must lie in (0, 1], got {list(shares)}", "e.g. --shares 0.25,0.5,0.75,1")
+    if full_run is not None and [s.name for s in full_run.systems] != [c.name for c in configs]:
+        raise ConfigError(f"the full run holds configs {[s.name for s in full_run.systems]}, the curve "
+                          f"{[c.name for c in configs]}", "pass the run of exactly these configs, in this order")
     settings = settings or EvaluationSettings()
     annotated = [r for r in records if r.is_annotated]
     auxiliary = None
