@@ -78,6 +78,18 @@ def test_warnings_keep_the_record(tmp_path):
     assert any(m.startswith("events[3].trigger: span 'rossed' cuts through a word") for m in messages)
 
 
+def test_a_file_without_records_is_a_warning_that_names_it(tmp_path):
+    empty, blank = tmp_path / "empty.jsonl", tmp_path / "blank.jsonl"
+    empty.write_text("", encoding="utf-8")
+    blank.write_text("\n  \n", encoding="utf-8")
+    good = tmp_path / "good.jsonl"
+    good.write_text(line() + "\n", encoding="utf-8")
+    result = check_files([empty, good, blank])
+    assert not result.errors and [r.id for _, _, r in result.records] == ["ok-1"]
+    assert [str(p).splitlines()[0] for p in result.warnings] == [
+        f"{path}:1: file: warning: holds no records (empty or blank lines only)" for path in (empty, blank)]
+
+
 def test_reading_for_training_refuses_errors_unless_asked_to_skip(bad_file):
     with pytest.raises(CorpusError) as raised:
         read_corpus([bad_file])

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import re
 from pathlib import Path
 
 import pytest
@@ -34,6 +35,21 @@ def test_gold_records_without_a_prediction_are_refused_and_named(files) -> None:
     with pytest.raises(CorpusError, match=r"1 annotated gold record\(s\) .* have no prediction: 'd1-s2'") as caught:
         score_report(gold, pred, roles=ROLES, settings=SETTINGS)
     assert "--allow-missing" in caught.value.fix
+
+
+@pytest.mark.parametrize("lines, held", [
+    ([], "it holds no records"),
+    ([{"id": "u", "doc": "d1", "text": "We rested."}], "its 1 record(s) are all unannotated"),
+])
+def test_a_gold_file_without_annotated_records_is_refused_before_any_scoring(tmp_path: Path, lines, held) -> None:
+    gold, pred = tmp_path / "gold.jsonl", tmp_path / "pred.jsonl"
+    gold.write_text("".join(json.dumps(line) + "\n" for line in lines), encoding="utf-8")
+    write_jsonl(predictions()["beta"], pred)
+    out = tmp_path / "scores"
+    with pytest.raises(CorpusError, match=re.escape(f"no annotated gold records to score against: {held}")) as caught:
+        score_report(gold, pred, roles=ROLES, settings=SETTINGS, folder=out)
+    assert "`events` list" in caught.value.fix
+    assert not out.exists()
 
 
 def test_allow_missing_counts_them_as_missed_and_lists_them(files, tmp_path: Path) -> None:

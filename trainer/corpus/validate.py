@@ -320,9 +320,15 @@ def check_files(paths: Iterable[Path], roles: tuple[str, ...] = DEFAULT_ROLES) -
     result = FileCheck()
     first_seen: dict[str, str] = {}
     for path in paths:
+        empty = True
         for number, line in iter_lines(Path(path)):
+            empty = False
             one = check_line(str(path), number, line, roles, first_seen)
             result.records.extend(one.records)
             result.problems.extend(one.problems)
             result.bad_records += one.bad_records
+        if empty:
+            result.problems.append(Problem(str(path), 1, "file", "holds no records (empty or blank lines only)",
+                                           "check that this is the file you meant; each line holds one record",
+                                           WARNING))
     return result

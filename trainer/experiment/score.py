@@ -36,6 +36,10 @@ def score_report(gold_path: Path, pred_path: Path, *, roles: Sequence[str], sett
     if folder is not None:
         check_output(folder, inputs=[gold_path, pred_path], folder=True, what="score folder")
     gold = read_corpus([gold_path], roles=tuple(roles)).records
+    if not any(record.is_annotated for record in gold):
+        held = f"its {len(gold)} record(s) are all unannotated (no `events` key)" if gold else "it holds no records"
+        raise CorpusError(f"{gold_path}: no annotated gold records to score against: {held}",
+                          "name the gold file: records with an `events` list ([] for a sentence without motion)")
     predicted = read_corpus([pred_path], roles=tuple(roles)).records
     missing = missing_predictions(gold, predicted)
     if missing and not allow_missing:
