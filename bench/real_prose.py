@@ -10,7 +10,8 @@ see its ``SOURCES.md``):
    the CRF and logistic configs, and the default config with and without the
    packaged demo corpus as auxiliary corpus, with feature augmentation, and
    without each of its new feature groups (rule decisions, WordNet classes);
-   then, on the two books a second annotator labelled blind
+   then the rules and the default book by book (overlap mode); then, on the
+   two books a second annotator labelled blind
    (``tests/external/real-prose/second-annotator.jsonl``), that annotator
    against the corpus and the default's held-out predictions against each;
 2. every config trained on the whole invented demo corpus
@@ -39,6 +40,7 @@ from trainer.config import AuxiliaryConfig, ExperimentConfig, load_config
 from trainer.corpus.reader import read_corpus
 from trainer.corpus.records import Record
 from trainer.evaluation.bootstrap import bootstrap_f1s
+from trainer.evaluation.breakdown import by_group
 from trainer.experiment.crossval import run_crossval
 from trainer.evaluation.folds import leave_one_book_out
 from trainer.evaluation.runs import CrossvalRun
@@ -152,6 +154,23 @@ def demo_trained_rows(records: Sequence[Record], systems: Sequence[ExperimentCon
     return rows
 
 
+def book_lines(run: CrossvalRun, names: Sequence[str] = ("rules", "default")) -> list[str]:
+    """Overlap role micro F1 and trigger F1 of some configs of ``run`` on each held-out book, one line per book."""
+    per_book = {}
+    for name in names:
+        system = next(s for s in run.systems if s.name == name)
+        counts = pool_folds(system, fold_counts(run, system, roles=system.config.roles, mode="overlap"))
+        per_book[name] = by_group({"overlap": counts}, by="book")
+    books = next(iter(per_book.values()))
+    lines = [f"{'book':20} | sentences | gold triggers | " + " | ".join(f"{name} role F1 / trigger F1" for name in names)]
+    for book, scores in books.items():
+        overlap = scores["overlap"]
+        cells = [f"{per_book[name][book]['overlap']['micro']['f1']:.3f} / {per_book[name][book]['overlap']['trigger']['f1']:.3f}"
+                 for name in names]
+        lines.append(f"{book:20} | {overlap['records']:9} | {overlap['trigger']['gold']:13} | " + " | ".join(cells))
+    return lines
+
+
 def agreement_lines(run: CrossvalRun, name: str = "default") -> list[str]:
     """Overlap trigger and role F1 on the sentences the second annotator labelled: that annotator against the
     corpus, and one config's held-out predictions from ``run`` against each annotator."""
@@ -224,6 +243,8 @@ def main() -> None:
     run = leave_one_book_out_run(records, systems, jobs=args.jobs)
     for row in run_rows(run, bootstrap=args.bootstrap):
         print(row.line())
+    print("\nBook by book (each held out in turn; overlap mode):")
+    print(*book_lines(run), sep="\n")
     print("\nTwo annotators and the default (held out) on the same sentences:")
     print(*agreement_lines(run), sep="\n")
     print("\nTrained on the whole demo corpus, applied to all real-prose sentences:")
