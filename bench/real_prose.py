@@ -165,8 +165,8 @@ def book_lines(run: CrossvalRun, names: Sequence[str] = ("rules", "default")) ->
     lines = [f"{'book':20} | sentences | gold triggers | " + " | ".join(f"{name} role F1 / trigger F1" for name in names)]
     for book, scores in books.items():
         overlap = scores["overlap"]
-        cells = [f"{per_book[name][book]['overlap']['micro']['f1']:.3f} / {per_book[name][book]['overlap']['trigger']['f1']:.3f}"
-                 for name in names]
+        held_out = [per_book[name][book]["overlap"] for name in names]
+        cells = [f"{score['micro']['f1']:.3f} / {score['trigger']['f1']:.3f}" for score in held_out]
         lines.append(f"{book:20} | {overlap['records']:9} | {overlap['trigger']['gold']:13} | " + " | ".join(cells))
     return lines
 
