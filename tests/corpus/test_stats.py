@@ -49,3 +49,10 @@ def test_demo_corpus_meets_the_numbers_it_promises(demo_train, demo_test, nlp):
     assert len(stats.trigger_lemmas) >= 80
     assert min(stats.role_counts.values()) >= 150
     assert stats.events_per_record.get(2, 0) + stats.events_per_record.get(3, 0) >= 50  # several events per sentence
+
+
+def test_the_summary_of_no_records_says_none_instead_of_ending_lines_empty():
+    text = corpus_stats([]).to_text()
+    assert text.splitlines()[0] == "records: 0 in 0 doc(s)"
+    assert not [line for line in text.splitlines() if line.rstrip().endswith(":")]
+    assert "records per doc: none" in text and "most frequent: none" in text

@@ -48,14 +48,19 @@ class CorpusStats:
             f"unannotated: {share(self.unannotated)}",
             f"events: {self.events}",
             "roles: " + ", ".join(f"{r} {n}" for r, n in self.role_counts.items()),
-            "events per annotated record: " + ", ".join(f"{k}: {v}" for k, v in sorted(self.events_per_record.items())),
+            "events per annotated record: " + _listed(f"{k}: {v}" for k, v in sorted(self.events_per_record.items())),
             f"trigger lemmas ({self.lemma_source}): {len(self.trigger_lemmas)} distinct; most frequent: "
-            + ", ".join(f"{k} {v}" for k, v in list(self.trigger_lemmas.items())[:top]),
+            + _listed(f"{k} {v}" for k, v in list(self.trigger_lemmas.items())[:top]),
             "span length in words (mean / max): "
-            + ", ".join(f"{r} {s['mean']:.1f}/{s['max']:.0f}" for r, s in self.span_words.items()),
-            "records per doc: " + ", ".join(f"{d} {n}" for d, n in self.records_per_doc.items()),
+            + _listed(f"{r} {s['mean']:.1f}/{s['max']:.0f}" for r, s in self.span_words.items()),
+            "records per doc: " + _listed(f"{d} {n}" for d, n in self.records_per_doc.items()),
         ]
         return "\n".join(lines)
+
+
+def _listed(items: Iterable[str]) -> str:
+    """Items joined by commas, or ``none`` for no items (so no line of the summary ends empty)."""
+    return ", ".join(items) or "none"
 
 
 def corpus_stats(
