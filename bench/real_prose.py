@@ -42,7 +42,7 @@ from trainer.corpus.records import Record
 from trainer.evaluation.bootstrap import bootstrap_f1s
 from trainer.evaluation.breakdown import by_group
 from trainer.experiment.crossval import run_crossval
-from trainer.evaluation.folds import leave_one_book_out
+from trainer.evaluation.folds import book_of, leave_one_book_out
 from trainer.evaluation.runs import CrossvalRun
 from trainer.evaluation.scoring import CorpusCounts, count_corpus
 from trainer.evaluation.summary import EvaluationSettings, fold_counts, pool_folds
@@ -179,7 +179,7 @@ def agreement_lines(run: CrossvalRun, name: str = "default") -> list[str]:
     system = next(s for s in run.systems if s.name == name)
     predicted = {r.id: r for r in system.predictions()}
     again, held_out = [second[r.id] for r in gold], [predicted[r.id] for r in gold]
-    lines = [f"{len(gold)} sentences ({', '.join(sorted({r.doc.rsplit('-', 1)[0] for r in gold}))}), overlap mode",
+    lines = [f"{len(gold)} sentences ({', '.join(sorted({book_of(r.doc) for r in gold}))}), overlap mode",
              f"{'reference':18} | {'compared':18} | trigger P / R / F1    | role F1"]
     for reference, compared, ref, hyp in (("corpus", "second annotator", gold, again), ("corpus", name, gold, held_out),
                                           ("second annotator", name, again, held_out)):
@@ -233,7 +233,7 @@ def main() -> None:
                         help="also the learning curve over shares of the training chapters (about 11 more minutes on 2 cores)")
     args = parser.parse_args()
     records = real_prose_records()
-    books = sorted({r.doc.rsplit("-", 1)[0] for r in records})
+    books = sorted({book_of(r.doc) for r in records})
     print(f"real-prose corpus: {len(records)} sentences, {sum(1 for r in records if r.events)} with events, "
           f"{len(books)} books ({', '.join(books)})")
     systems = configs()

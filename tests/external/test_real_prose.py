@@ -14,6 +14,7 @@ import sys
 import pytest
 
 from tests.conftest import REPO, load_bench
+from trainer.evaluation.folds import book_of
 
 REAL_PROSE = REPO / "tests" / "external" / "real-prose"
 
@@ -42,10 +43,10 @@ def test_the_second_annotation_covers_two_books_with_the_corpus_s_own_ids_and_te
     second = read_corpus([REAL_PROSE / "second-annotator.jsonl"]).records
     corpus = {r.id: r for r in read_corpus([REAL_PROSE / "corpus"]).records}
     assert all(r.is_annotated and (corpus[r.id].doc, corpus[r.id].text) == (r.doc, r.text) for r in second)
-    books = {r.doc.rsplit("-", 1)[0] for r in second}
+    books = {book_of(r.doc) for r in second}
     assert books == {"dana-mast", "park-interior"}
     # every sentence of those two books, no more
-    assert sorted(r.id for r in second) == sorted(i for i, r in corpus.items() if r.doc.rsplit("-", 1)[0] in books)
+    assert sorted(r.id for r in second) == sorted(i for i, r in corpus.items() if book_of(r.doc) in books)
     result = agreement_files([REAL_PROSE / "corpus", REAL_PROSE / "second-annotator.jsonl"])
     assert sorted(result.compared) == sorted(r.id for r in second) and len(second) == 158
 
@@ -57,6 +58,7 @@ def test_the_learned_default_beats_the_rules_leaving_one_book_out() -> None:
     run = bench.leave_one_book_out_run(records, bench.configs(("rules", "default"), ablations=False), jobs=2)
     rows = {row.name: row for row in bench.run_rows(run, bootstrap=200)}
     rules, default = rows["rules"], rows["default"]
+
     print(f"\nleave one book out, overlap: rules role F1 {rules.role_f1['overlap']:.3f} trigger "
           f"{rules.trigger_f1['overlap']:.3f}; default role F1 {default.role_f1['overlap']:.3f} "
           f"trigger {default.trigger_f1['overlap']:.3f}")
@@ -67,7 +69,7 @@ def test_the_learned_default_beats_the_rules_leaving_one_book_out() -> None:
     # Book by book: every book is held out once, each gold trigger counted once, and the gain is not one book's.
     lines = bench.book_lines(run, names=("rules", "default"))
     cells = [[cell.strip() for cell in line.split("|")] for line in lines[1:]]
-    assert [c[0] for c in cells] == sorted({r.doc.rsplit("-", 1)[0] for r in records})
+    assert [c[0] for c in cells] == sorted({book_of(r.doc) for r in records})
     assert sum(int(c[2]) for c in cells) == sum(len(r.events) for r in records)
     trigger_f1 = [(float(c[3].split("/")[1]), float(c[4].split("/")[1])) for c in cells]
     assert sum(default_f1 > rules_f1 for rules_f1, default_f1 in trigger_f1) >= 5
