@@ -162,7 +162,7 @@ _CHOICES: dict[str, Collection[str]] = {
     "confidence.calibration": CALIBRATION_METHODS,
     "confidence.thresholds": THRESHOLD_OBJECTIVES,
 }
-_POSITIVE = {"parser.batch_size", "parser.workers", "evaluation.folds", "evaluation.repeats",
+_POSITIVE = {"parser.batch_size", "parser.workers", "evaluation.repeats",
              "evaluation.bootstrap_samples", "trigger_model.iterations", "role_model.iterations"}
 # Model keys of earlier versions (named after one library's parameters) and what replaces each.
 RENAMED_MODEL_KEYS = {
@@ -208,6 +208,15 @@ def check_value(path: str, value: Any, source: str) -> None:
         raise ConfigError(f"{source}: '{path}' = {value!r} is not allowed", f"use one of: {', '.join(_CHOICES[path])}")
     if path in _POSITIVE and value < 1:
         raise ConfigError(f"{source}: '{path}' must be at least 1, got {value}", "use a positive number")
+    if path == "evaluation.folds" and value < 2:
+        raise ConfigError(f"{source}: 'evaluation.folds' must be at least 2, got {value}",
+                          "each fold holds out some docs and trains on the others: use 2 or more")
+    if path == "features.window" and value < 0:
+        raise ConfigError(f"{source}: 'features.window' must be 0 or more, got {value}",
+                          "the number of neighbours on each side whose features a token sees; 0 for none")
+    if path == "features.affix_length" and value < 1:
+        raise ConfigError(f"{source}: 'features.affix_length' must be at least 1, got {value}",
+                          "the number of leading and trailing characters kept as prefix and suffix, e.g. 3")
     if path.endswith(".regularisation") and not value > 0:
         raise ConfigError(f"{source}: '{path}' must be above 0, got {value}", "e.g. 1.0; larger values penalise weights more")
     if path.endswith((".l1_penalty", ".l2_penalty")) and value < 0:

@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import json
 
+import pytest
+
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
@@ -105,3 +107,22 @@ def test_property_file_round_trip_through_the_validating_reader(tmp_path_factory
     assert not back.skipped
     assert [r.id for r in back.records] == [r.id for r in recs]
     assert all(a.same_content(b) for a, b in zip(recs, back.records))
+
+
+@pytest.mark.parametrize("tail, bad", [
+    ("\u00e9".encode("utf-8") + b"\nline\nok \xff tail\n", 0xFF),  # a character split across blocks, a stray byte later
+    (b"\xc3(\n", 0xC3),  # a lead byte at the end of the first block whose continuation never comes
+])
+def test_not_utf8_locates_the_first_bad_byte_across_read_blocks(tmp_path, tail, bad):
+    from trainer.corpus.jsonl import not_utf8
+
+    # The file is read in 64 KiB blocks and the tail starts one byte before the second; the reference position
+    # is the one Python's own UTF-8 codec reports for the whole file at once.
+    body = b"a\n" * 32767 + b"x" + tail
+    path = tmp_path / "f.txt"
+    path.write_bytes(body)
+    with pytest.raises(UnicodeDecodeError) as reference:
+        body.decode("utf-8")
+    error = not_utf8(path)
+    line = body[:reference.value.start].count(b"\n") + 1
+    assert error.cause == f"{path}: not UTF-8 text: line {line}, byte {reference.value.start} (0x{bad:02x})"

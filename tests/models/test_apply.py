@@ -166,3 +166,21 @@ def test_a_full_disk_during_extraction_is_a_message_and_keeps_the_earlier_output
     with pytest.raises(OutputError, match="o.jsonl: writing failed \\(No space left on device\\)"):
         extract_file(rules_model, DEMO / "test" / "lisle-letters-1.jsonl", out, input_format="jsonl", nlp=nlp)
     assert out.read_text() == "earlier\n"
+
+
+@pytest.mark.parametrize("fmt, name, body", [
+    ("text", "book.txt", "We left Caddow at dawn.\n\nThen we rode to M\xe9rle.\n".encode("latin-1")),
+    ("jsonl", "book.jsonl", '{"id": "a", "doc": "d", "text": "We rode to M\xe9rle."}\n'.encode("latin-1")),
+])
+def test_an_input_that_is_not_utf8_is_located_and_leaves_no_partial_output(rules_model, nlp, tmp_path, fmt, name, body):
+    from trainer.errors import UnreadableInputError
+
+    source, out = tmp_path / name, tmp_path / "o.jsonl"
+    source.write_bytes(body)
+    out.write_text("earlier\n")
+    bad = body.index(b"\xe9")
+    line = body[:bad].count(b"\n") + 1
+    with pytest.raises(UnreadableInputError, match=f"not UTF-8 text: line {line}, byte {bad} \\(0xe9\\)"):
+        extract_file(rules_model, source, out, input_format=fmt, nlp=nlp)
+    assert out.read_text() == "earlier\n"  # the earlier output is kept, and no partial file or its note is left
+    assert sorted(p.name for p in tmp_path.iterdir()) == sorted([name, "o.jsonl"])

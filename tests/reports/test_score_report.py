@@ -7,7 +7,7 @@ import re
 from pathlib import Path
 
 import pytest
-from report_samples import ROLES, gold_records, predictions, tiny_report
+from report_samples import ROLES, gold_records, predictions, tiny_report, with_confidences
 from typer.testing import CliRunner
 
 from trainer.cli import app
@@ -111,3 +111,24 @@ def test_views_show_both_modes_per_book_doc_and_the_full_learning_curve() -> Non
     page = html_report(report, gold_records(), predictions())
     assert 'class="matching"' in page and 'class="per-book"' in page and 'class="per-doc"' in page
     assert 'class="confidence"' in page
+
+
+def test_predictions_without_confidences_say_so_instead_of_an_empty_threshold_list(tmp_path: Path) -> None:
+    gold = tmp_path / "gold.jsonl"
+    write_jsonl(gold_records(), gold)
+    report = score_report(gold, gold, roles=ROLES, settings=SETTINGS)  # gold records carry no confidences
+    assert all(c["instances"] == 0 for c in report["calibration"].values())
+    text = score_markdown(report)
+    assert "Calibration and confidence thresholds: none, the predictions carry no confidences." in text
+    assert "F1-optimal confidence thresholds" not in text and "Expected calibration error" not in text
+
+
+def test_predictions_with_confidences_list_their_calibration_and_thresholds(tmp_path: Path) -> None:
+    gold, pred = tmp_path / "gold.jsonl", tmp_path / "pred.jsonl"
+    write_jsonl(gold_records(), gold)
+    write_jsonl(with_confidences(predictions()["beta"]), pred)
+    report = score_report(gold, pred, roles=ROLES, settings=SETTINGS)
+    assert any(c["instances"] for c in report["calibration"].values())
+    text = score_markdown(report)
+    assert "Expected calibration error of held-out confidences (instances): trigger " in text
+    assert "F1-optimal confidence thresholds on held-out predictions: trigger " in text

@@ -7,6 +7,7 @@ mark, CRLF line ends, blank lines); everything else that is wrong is left to
 
 from __future__ import annotations
 
+import codecs
 import json
 from pathlib import Path
 from typing import Any, Iterable, Iterator
@@ -25,6 +26,25 @@ def read_text(path: Path, *, what: str = "a file") -> str:
         raise UnreadableInputError(f"{path}: not UTF-8 text", "re-save the file as UTF-8") from None
 
 
+def not_utf8(path: Path) -> UnreadableInputError:
+    """The error for a file that is not UTF-8, locating its first undecodable byte (line and byte offset)."""
+    decoder, offset, line = codecs.getincrementaldecoder("utf-8")(), 0, 1
+    with open(path, "rb") as handle:
+        for block in iter(lambda: handle.read(1 << 16), b""):
+            try:
+                decoder.decode(block)
+            except UnicodeDecodeError as exc:
+                # exc.start counts from the start of the bytes the decoder held back plus this block.
+                held = len(exc.object) - len(block)
+                bad = offset - held + exc.start
+                line += exc.object[:exc.start].count(b"\n")
+                return UnreadableInputError(f"{path}: not UTF-8 text: line {line}, byte {bad} "
+                                            f"(0x{exc.object[exc.start]:02x})", "re-save the file as UTF-8")
+            line += block.count(b"\n")
+            offset += len(block)
+    return UnreadableInputError(f"{path}: not UTF-8 text", "re-save the file as UTF-8")
+
+
 def iter_lines(path: Path) -> Iterator[tuple[int, str]]:
     """Yield ``(line_number, line)`` for each non-blank line of a UTF-8 file.
 
@@ -38,11 +58,8 @@ def iter_lines(path: Path) -> Iterator[tuple[int, str]]:
                 line = line.rstrip("\r\n")
                 if line.strip():
                     yield number, line
-        except UnicodeDecodeError as exc:
-            raise UnreadableInputError(
-                f"{path}: not UTF-8 text (byte {exc.start} of the undecodable chunk)",
-                "re-save the file as UTF-8",
-            ) from None
+        except UnicodeDecodeError:
+            raise not_utf8(path) from None
 
 
 def span_to_json(span: tuple[int, int]) -> list[int]:

@@ -24,7 +24,7 @@ from typing import Callable, Iterable, Iterator, Sequence
 from spacy.language import Language
 from spacy.tokens import Doc
 
-from trainer.corpus.jsonl import dumps_record
+from trainer.corpus.jsonl import dumps_record, not_utf8
 from trainer.corpus.reader import iter_records
 from trainer.corpus.records import Record
 from trainer.errors import CorpusError, UnreadableInputError
@@ -241,9 +241,11 @@ def extract_file(
                     if on_progress:
                         on_progress(summary.sentences, min(1.0, read[0] / total) if total else 1.0)
                 publish(out, partial, target)
-            except UnicodeDecodeError as exc:
-                raise UnreadableInputError(f"{source}: not UTF-8 text (byte {exc.start} of the undecodable chunk)",
-                                           "re-save the file as UTF-8") from None
+            except (UnicodeDecodeError, UnreadableInputError) as exc:  # not UTF-8: resuming cannot get past it
+                if base is None:  # nothing of an earlier run in the partial file
+                    partial.unlink()
+                    input_note_path(partial).unlink()
+                raise (not_utf8(source) if isinstance(exc, UnicodeDecodeError) else exc) from None
             except OSError as exc:
                 if exc.errno not in WRITE_ERRNOS:
                     raise

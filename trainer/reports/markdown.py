@@ -82,13 +82,16 @@ def breakdown_lines(system: dict[str, Any], roles: list[str]) -> list[str]:
         if table:
             out += ["", f"Per {title}:", ""] + table
     calibration, thresholds = system.get("calibration"), system.get("thresholds")
+    if calibration and not any(c["instances"] for c in calibration.values()):
+        out += ["", "Calibration and confidence thresholds: none, the predictions carry no confidences."]
+        return out
     if calibration:
         ece = ", ".join(f"{label} {'n/a' if c['ece'] is None else _f(c['ece'])} ({c['instances']})"
                         for label, c in calibration.items())
         out += ["", f"Expected calibration error of held-out confidences (instances): {ece}."]
-    if thresholds:
-        best = ", ".join(f"{label} {t['best']['threshold']:.3f} (F1 {_f(t['best']['f1'])})"
-                         for label, t in thresholds.items() if t["best"])
+    best = ", ".join(f"{label} {t['best']['threshold']:.3f} (F1 {_f(t['best']['f1'])})"
+                     for label, t in (thresholds or {}).items() if t["best"])
+    if best:
         out += ["", f"F1-optimal confidence thresholds on held-out predictions: {best}."]
     return out
 
