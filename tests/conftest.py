@@ -59,3 +59,18 @@ def demo_train() -> Path:
 @pytest.fixture(scope="session")
 def demo_test() -> Path:
     return DEMO / "test"
+
+
+@pytest.fixture(scope="session")
+def rules_model_file(tmp_path_factory, nlp, demo_train) -> Path:
+    """A model file (with its digest) of the rule stages, "trained" on one demo doc: quick to make, loads like any."""
+    from trainer.config import config_from_dict
+    from trainer.corpus.reader import read_corpus
+    from trainer.models.training import fit_extractor, save_extractor
+
+    config = config_from_dict({"parser": {"use_cache": False}, "trigger_model": {"kind": "rules"},
+                               "role_model": {"kind": "rules"}})
+    records = read_corpus([demo_train / "quarne-salt-1.jsonl"]).records
+    path = tmp_path_factory.mktemp("model") / "rules.itin"
+    save_extractor(fit_extractor(records, config, nlp=nlp), path, records=records, training_seconds=0.0)
+    return path

@@ -125,4 +125,4 @@ def test_not_utf8_locates_the_first_bad_byte_across_read_blocks(tmp_path, tail, 
         body.decode("utf-8")
     error = not_utf8(path)
     line = body[:reference.value.start].count(b"\n") + 1
-    assert error.cause == f"{path}: not UTF-8 text: line {line}, byte {reference.value.start} (0x{bad:02x})"
+    assert error.cause == f"{path}: not UTF-8 text: line {line}, byte offset {reference.value.start} (0x{bad:02x})"

@@ -108,7 +108,7 @@ def test_unreadable_files_raise_with_exit_code_2(tmp_path):
     assert missing.value.exit_code == 2
     latin = tmp_path / "latin.jsonl"
     latin.write_bytes('{"id": "a", "doc": "d", "text": "caf\xe9"}\n'.encode("latin-1"))
-    with pytest.raises(UnreadableInputError, match="not UTF-8"):
+    with pytest.raises(UnreadableInputError, match=r"latin.jsonl: not UTF-8 text: line 1, byte offset 36 \(0xe9\)"):
         check_files([latin])
 
 

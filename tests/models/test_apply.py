@@ -180,7 +180,7 @@ def test_an_input_that_is_not_utf8_is_located_and_leaves_no_partial_output(rules
     out.write_text("earlier\n")
     bad = body.index(b"\xe9")
     line = body[:bad].count(b"\n") + 1
-    with pytest.raises(UnreadableInputError, match=f"not UTF-8 text: line {line}, byte {bad} \\(0xe9\\)"):
+    with pytest.raises(UnreadableInputError, match=f"not UTF-8 text: line {line}, byte offset {bad} \\(0xe9\\)"):
         extract_file(rules_model, source, out, input_format=fmt, nlp=nlp)
     assert out.read_text() == "earlier\n"  # the earlier output is kept, and no partial file or its note is left
     assert sorted(p.name for p in tmp_path.iterdir()) == sorted([name, "o.jsonl"])

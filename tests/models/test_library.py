@@ -15,27 +15,16 @@ from typer.testing import CliRunner
 
 from tests.conftest import DEMO, REPO
 from trainer.cli import app
-from trainer.config import config_from_dict
 from trainer.corpus.reader import read_corpus
 from trainer.errors import ConfigError, OutputError
 from trainer.models.apply import extract_file, partial_path, resume_point
 from trainer.models.library import DONE, SKIPPED, extract_library, find_books, names_a_library
-from trainer.models.training import fit_extractor, load_extractor, save_extractor
+from trainer.models.training import load_extractor
 from trainer.parsing.text import paragraphs, read_text_file
 
 CHAPTER = DEMO / "unannotated" / "delacott-survey-3.txt"
 LETTERS = DEMO / "test" / "lisle-letters-1.jsonl"
 runner = CliRunner()
-
-
-@pytest.fixture(scope="module")
-def model_file(tmp_path_factory, nlp, demo_train) -> Path:
-    config = config_from_dict({"parser": {"use_cache": False}, "trigger_model": {"kind": "rules"},
-                               "role_model": {"kind": "rules"}})
-    records = read_corpus([demo_train / "quarne-salt-1.jsonl"]).records
-    path = tmp_path_factory.mktemp("model") / "rules.itin"
-    save_extractor(fit_extractor(records, config, nlp=nlp), path, records=records, training_seconds=0.0)
-    return path
 
 
 def make_library(folder: Path, *, books: int = 4, bad: bool = False) -> Path:
@@ -85,18 +74,18 @@ def test_which_calls_are_library_runs(tmp_path, inputs, output, library):
 
 
 @pytest.mark.slow
-def test_a_library_gives_the_same_files_serially_on_two_processes_and_on_a_dask_cluster(model_file, nlp, tmp_path):
+def test_a_library_gives_the_same_files_serially_on_two_processes_and_on_a_dask_cluster(rules_model_file, nlp, tmp_path):
     distributed = pytest.importorskip("dask.distributed")
     library = make_library(tmp_path / "lib")
     seen = []
-    serial = extract_library(model_file, [library], tmp_path / "serial", table=tmp_path / "all.tsv",
+    serial = extract_library(rules_model_file, [library], tmp_path / "serial", table=tmp_path / "all.tsv",
                              on_book=lambda result, done, total: seen.append((result.status, done, total)))
     assert [r.status for r in serial.results] == [DONE] * 5
     assert seen == [(DONE, n, 5) for n in range(1, 6)]
     expected = files(tmp_path / "serial")
     assert list(expected) == ["book-0.jsonl", "book-1.jsonl", "book-2.jsonl", "book-3.jsonl", "letters.jsonl"]
     # each book's file is what a single extraction of that file writes
-    trained, _ = load_extractor(model_file)
+    trained, _ = load_extractor(rules_model_file)
     extract_file(trained, library / "book-2.txt", tmp_path / "single.jsonl", nlp=nlp)
     assert (tmp_path / "single.jsonl").read_bytes() == expected["book-2.jsonl"]
     assert sum(r.sentences for r in serial.results) == sum(len(v.splitlines()) for v in expected.values())
@@ -106,18 +95,18 @@ def test_a_library_gives_the_same_files_serially_on_two_processes_and_on_a_dask_
     docs = [line.split("\t")[1] for line in table[1:]]
     assert docs == sorted(docs, key=["book-0", "book-1", "book-2", "book-3", "lisle-letters-1"].index)
 
-    extract_library(model_file, [library], tmp_path / "jobs2", jobs=2)
+    extract_library(rules_model_file, [library], tmp_path / "jobs2", jobs=2)
     assert files(tmp_path / "jobs2") == expected
     with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None) as cluster:
-        extract_library(model_file, [library], tmp_path / "dask", scheduler=cluster.scheduler_address)
+        extract_library(rules_model_file, [library], tmp_path / "dask", scheduler=cluster.scheduler_address)
     assert files(tmp_path / "dask") == expected
 
 
 @pytest.mark.slow
-def test_a_bad_book_is_reported_and_counted_and_the_others_are_written(model_file, tmp_path):
+def test_a_bad_book_is_reported_and_counted_and_the_others_are_written(rules_model_file, tmp_path):
     """Exit 1 (some data was bad, as for skipped records elsewhere), each failure named with its cause."""
     library = make_library(tmp_path / "lib", books=2, bad=True)
-    result = runner.invoke(app, ["extract", str(model_file), str(library), "-o", str(tmp_path / "out"), "--progress"])
+    result = runner.invoke(app, ["extract", str(rules_model_file), str(library), "-o", str(tmp_path / "out"), "--progress"])
     assert result.exit_code == 1, result.output
     assert "5/5 books" in result.output and "words/s" in result.output  # the progress display's last state
     assert "book-latin1.txt: not UTF-8 text" in result.output
@@ -129,11 +118,11 @@ def test_a_bad_book_is_reported_and_counted_and_the_others_are_written(model_fil
 
 
 @pytest.mark.slow
-def test_a_library_run_killed_midway_resumes_to_the_same_files(model_file, tmp_path):
+def test_a_library_run_killed_midway_resumes_to_the_same_files(rules_model_file, tmp_path):
     library = make_library(tmp_path / "lib", books=2)
-    extract_library(model_file, [library], tmp_path / "whole", batch_size=4)
+    extract_library(rules_model_file, [library], tmp_path / "whole", batch_size=4)
     killed = tmp_path / "killed"
-    command = [sys.executable, "-m", "trainer.cli", "extract", str(model_file), str(library), "-o", str(killed),
+    command = [sys.executable, "-m", "trainer.cli", "extract", str(rules_model_file), str(library), "-o", str(killed),
                "--batch-size", "4", "--no-progress"]
     process = subprocess.Popen(command, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
     torn = partial_path(killed / "book-1.jsonl")
@@ -146,7 +135,7 @@ def test_a_library_run_killed_midway_resumes_to_the_same_files(model_file, tmp_p
     os.kill(process.pid, signal.SIGKILL)
     process.wait()
     assert (killed / "book-0.jsonl").exists() and torn.exists(), "the run was not caught between two books"
-    summary = extract_library(model_file, [library], killed, resume=True, batch_size=4)
+    summary = extract_library(rules_model_file, [library], killed, resume=True, batch_size=4)
     assert [r.status for r in summary.results] == [SKIPPED, DONE, DONE]
     assert summary.results[1].resumed > 0
     assert files(killed) == files(tmp_path / "whole")

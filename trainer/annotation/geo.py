@@ -35,7 +35,8 @@ from pathlib import Path
 from typing import Any
 
 from trainer.annotation.itinerary import PLACE_ROLES, Itinerary, ItineraryRow, fold, table_separator
-from trainer.errors import GazetteerError, UnreadableInputError, opening
+from trainer.corpus.jsonl import not_utf8
+from trainer.errors import GazetteerError, opening
 from trainer.outputs import write_text
 
 REQUIRED_COLUMNS = ("name", "latitude", "longitude")
@@ -170,7 +171,7 @@ def read_gazetteer(path: Path | str) -> Gazetteer:
                                      if a.strip())
                 places.append(Place(name, latitude, longitude, alternatives, reader.line_num))
         except UnicodeDecodeError:
-            raise UnreadableInputError(f"{path}: not UTF-8 text", "re-save the gazetteer as UTF-8") from None
+            raise not_utf8(path, "re-save the gazetteer as UTF-8") from None
         except csv.Error as exc:
             raise GazetteerError(f"{path}:{reader.line_num}: not a readable table ({exc})",
                                  "check the quoting") from None

@@ -23,10 +23,10 @@ def read_text(path: Path, *, what: str = "a file") -> str:
         with opening(path, expected=what):
             return Path(path).read_text(encoding="utf-8-sig")
     except UnicodeDecodeError:
-        raise UnreadableInputError(f"{path}: not UTF-8 text", "re-save the file as UTF-8") from None
+        raise not_utf8(path) from None
 
 
-def not_utf8(path: Path) -> UnreadableInputError:
+def not_utf8(path: Path, fix: str = "re-save the file as UTF-8") -> UnreadableInputError:
     """The error for a file that is not UTF-8, locating its first undecodable byte (line and byte offset)."""
     decoder, offset, line = codecs.getincrementaldecoder("utf-8")(), 0, 1
     with open(path, "rb") as handle:
@@ -38,11 +38,11 @@ def not_utf8(path: Path) -> UnreadableInputError:
                 held = len(exc.object) - len(block)
                 bad = offset - held + exc.start
                 line += exc.object[:exc.start].count(b"\n")
-                return UnreadableInputError(f"{path}: not UTF-8 text: line {line}, byte {bad} "
-                                            f"(0x{exc.object[exc.start]:02x})", "re-save the file as UTF-8")
+                return UnreadableInputError(f"{path}: not UTF-8 text: line {line}, byte offset {bad} "
+                                            f"(0x{exc.object[exc.start]:02x})", fix)
             line += block.count(b"\n")
             offset += len(block)
-    return UnreadableInputError(f"{path}: not UTF-8 text", "re-save the file as UTF-8")
+    return UnreadableInputError(f"{path}: not UTF-8 text", fix)
 
 
 def iter_lines(path: Path) -> Iterator[tuple[int, str]]:

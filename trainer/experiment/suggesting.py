@@ -5,7 +5,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from pathlib import Path
 
-from trainer.errors import UnreadableInputError
+from trainer.errors import CorpusError, UnreadableInputError
 from trainer.outputs import check_output
 
 
@@ -36,11 +36,20 @@ def suggest_to_file(model: Path, unlabeled: Path, output: Path, *, count: int = 
     trained, _ = load_extractor(model)
     nlp = parser_for(trained.config)
     if unlabeled.suffix == ".jsonl":
-        records = [r for r in read_corpus([unlabeled], roles=trained.roles).records if not r.is_annotated]
+        read = read_corpus([unlabeled], roles=trained.roles).records
+        records = [r for r in read if not r.is_annotated]
         docs = None
+        if read and not records:
+            raise CorpusError(f"{unlabeled}: all its {len(read)} record(s) are annotated (each has an `events` list, "
+                              "an empty one too), so there is nothing to suggest",
+                              "give records without `events` (or a plain-text file); a suggested batch is already "
+                              "pre-annotated")
     else:
         pairs = list(sentence_records(nlp, iter_paragraphs(unlabeled), doc_name=unlabeled.stem, source=str(unlabeled)))
         records, docs = [r for r, _ in pairs], [d for _, d in pairs]
+    if not records:
+        raise CorpusError(f"{unlabeled}: holds no sentences (empty or blank lines only)",
+                          "name a file of unannotated sentences")
     digest = digest_path(model).read_text(encoding="ascii").split()[0][:12]
     batch = suggest_batch(trained, records, count, measure=measure, diversity=diversity, nlp=nlp, docs=docs,
                           model_name=f"{model.name} sha256:{digest}")

@@ -22,6 +22,7 @@ from typing import Any, Iterable, Iterator
 import pandas as pd
 
 from trainer.corpus.convert.base import Conversion, writable
+from trainer.corpus.jsonl import not_utf8
 from trainer.corpus.records import DEFAULT_ROLES, Event, Offsets, Record, RoleSpan
 from trainer.corpus.validate import record_problems, strict_loads
 from trainer.errors import CorpusError, StrictJSONError, UnknownFormatError, UnreadableInputError
@@ -182,8 +183,7 @@ class _TableReader:
         except FileNotFoundError:
             raise UnreadableInputError(f"{self.path}: no such file", "check the path") from None
         except UnicodeDecodeError:
-            raise UnreadableInputError(f"{self.path}: not UTF-8 text",
-                                       "save the sheet as 'CSV UTF-8' (or TSV in UTF-8)") from None
+            raise not_utf8(self.path, "save the sheet as 'CSV UTF-8' (or TSV in UTF-8)") from None
         except (pd.errors.ParserError, pd.errors.EmptyDataError) as exc:
             raise CorpusError(f"{self.path}: not a readable table ({exc})",
                               "check the quoting and that every row has the same number of cells") from None

@@ -1,0 +1,24 @@
+"""suggest_to_file refuses an input without unannotated sentences (suggesting itself: tests/annotation/test_suggest.py)."""
+
+from __future__ import annotations
+
+import pytest
+
+from trainer.errors import CorpusError
+from trainer.experiment.suggesting import suggest_to_file
+
+
+@pytest.mark.parametrize("name, body, cause", [
+    ("blank.txt", "\n  \n\n", "blank.txt: holds no sentences (empty or blank lines only)"),
+    ("done.jsonl", '{"id": "a", "doc": "d", "text": "We rode on.", "events": []}\n'
+                   '{"id": "b", "doc": "d", "text": "We left Caddow.", "events": [{"trigger": [3, 7], "roles": []}]}\n',
+     "done.jsonl: all its 2 record(s) are annotated"),
+])
+def test_an_input_without_unannotated_sentences_is_refused_and_nothing_written(rules_model_file, tmp_path, name, body, cause):
+    source, out = tmp_path / name, tmp_path / "batch.jsonl"
+    source.write_text(body, encoding="utf-8")
+    with pytest.raises(CorpusError) as raised:
+        suggest_to_file(rules_model_file, source, out, count=3)
+    assert raised.value.cause.startswith(f"{source.parent}/{cause}")
+    assert not out.exists()
+
