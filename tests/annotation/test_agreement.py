@@ -144,8 +144,9 @@ def test_refusals_name_the_problem() -> None:
         agreement({"ann": [ANN], "bea": [replace(BEA, text="We left Caddow for the lakes")]})
     with pytest.raises(CorpusError, match="annotator 'ann' has id 's1' twice"):
         agreement({"ann": [ANN, ANN], "bea": [BEA]})
-    nothing = agreement({"ann": [ANN], "bea": [replace(BEA, id="other")]})
-    assert nothing.compared == [] and "nothing to compare" in nothing.notes[0]
+    with pytest.raises(CorpusError, match=r"no record is annotated by every annotator, so there is nothing to compare "
+                                          r"\(annotated records: ann 1, bea 1\)"):
+        agreement({"ann": [ANN], "bea": [replace(BEA, id="other")]})
 
 
 def test_annotator_names_are_file_names_unless_they_clash() -> None:

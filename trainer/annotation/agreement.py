@@ -377,9 +377,9 @@ def agreement(annotations: Mapping[str, Sequence[Record]], *, roles: Sequence[st
     """Compare two or more annotators' records (``name -> records``) on the ids all of them annotated.
 
     Refused (:class:`~trainer.errors.CorpusError`): fewer than two
-    annotators, an id repeated within one annotator, and an id whose text
-    differs between annotators. Compared records keep the first annotator's
-    order.
+    annotators, an id repeated within one annotator, an id whose text
+    differs between annotators, and no id annotated by all of them.
+    Compared records keep the first annotator's order.
     """
     roles = check_roles(roles)
     names = tuple(annotations)
@@ -397,9 +397,12 @@ def agreement(annotations: Mapping[str, Sequence[Record]], *, roles: Sequence[st
         raise CorpusError(f"{len(differing)} record(s) have a different text from one annotator to another: "
                           f"{_name_some(differing)}",
                           "compare annotations of the same sentences; offsets only compare on identical text")
-    notes = []
     if not shared:
-        notes.append("no record was annotated by every annotator: nothing to compare, every measure is undefined")
+        counts = ", ".join(f"{name} {len(annotated[name])}" for name in names)
+        raise CorpusError(f"no record is annotated by every annotator, so there is nothing to compare "
+                          f"(annotated records: {counts})",
+                          "compare files that annotate the same sentences, under the same record ids")
+    notes = []
     for name in names:
         if unreviewed[name]:
             notes.append(f"{name}: {unreviewed[name]} record(s) still marked 'predicted' were left out "
