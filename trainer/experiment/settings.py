@@ -13,7 +13,9 @@ from dataclasses import dataclass, field, fields, replace
 from pathlib import Path
 from typing import Any, Sequence
 
-from trainer.config import ConfidenceConfig, EvaluationConfig, ExperimentConfig, add_auxiliary, check_value, load_config
+from trainer.config import (
+    DEFAULT_CONFIG, ConfidenceConfig, EvaluationConfig, ExperimentConfig, add_auxiliary, check_value, load_config,
+)
 from trainer.corpus.auxiliary import check_sources
 from trainer.errors import ConfigError
 from trainer.evaluation.summary import EvaluationSettings
@@ -81,7 +83,7 @@ class RunSettings:
 
 
 def resolve_settings(config_paths: Sequence[Path | str] = (), overrides: Overrides = Overrides()) -> RunSettings:
-    """Read every config once (defaults when none), apply the overrides and check the whole before any work.
+    """Read every config once (``configs/default.toml`` when none), apply the overrides and check the whole before any work.
 
     Refused: an override out of range, an auxiliary corpus that cannot be read,
     configs with different role inventories or names, and configs whose
@@ -91,9 +93,10 @@ def resolve_settings(config_paths: Sequence[Path | str] = (), overrides: Overrid
     for section, values in (("evaluation", overrides.evaluation()), ("confidence", overrides.confidence())):
         for key, value in values.items():
             check_value(f"{section}.{key}", value, OPTION_NAMES.get(key, f"--{key.replace('_', '-')}"))
-    if overrides.folds is not None and overrides.folds < 2:
-        raise ConfigError(f"--folds must be at least 2, got {overrides.folds}", "e.g. --folds 5")
-    configs = [add_auxiliary(load_config(p), overrides.auxiliary, overrides.augment) for p in paths or [None]]
+    if not paths and not DEFAULT_CONFIG.is_file():
+        raise ConfigError(f"no config given, and the recommended one ({DEFAULT_CONFIG}) is not there",
+                          "name a config with -c (itinerant's source has ready ones in configs/)")
+    configs = [add_auxiliary(load_config(p), overrides.auxiliary, overrides.augment) for p in paths or [DEFAULT_CONFIG]]
     if overrides.confidence():
         configs = [replace(c, confidence=replace(c.confidence, **overrides.confidence())) for c in configs]
     check_sources([source for c in configs for source in c.auxiliary.corpora])
