@@ -401,10 +401,10 @@ def score(
 ) -> None:
     """Score predictions from any extractor against gold with itinerant's scorer."""
     from trainer.experiment.score import score_report
-    from trainer.experiment.settings import Overrides, resolve_settings
+    from trainer.experiment.settings import Overrides, scoring_settings
     from trainer.reports.markdown import score_markdown
 
-    settings = resolve_settings([], Overrides(mode=mode, seed=seed, bootstrap_samples=bootstrap)).evaluation
+    settings = scoring_settings(Overrides(mode=mode, seed=seed, bootstrap_samples=bootstrap))
     report = score_report(gold, predictions, roles=_roles(roles), settings=settings, folder=output,
                           allow_missing=allow_missing)
     typer.echo(score_markdown(report))

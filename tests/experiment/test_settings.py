@@ -10,7 +10,7 @@ from trainer.config import DEFAULT_CONFIG, DEFAULT_SEED, EvaluationConfig, Exper
 from trainer.errors import ConfigError
 from trainer.evaluation.summary import EvaluationSettings
 from trainer.experiment import settings as settings_module
-from trainer.experiment.settings import FoldOptions, Overrides, resolve_settings
+from trainer.experiment.settings import FoldOptions, Overrides, resolve_settings, scoring_settings
 
 
 def write(folder: Path, name: str, text: str) -> Path:
@@ -23,6 +23,15 @@ def test_every_evaluation_default_comes_from_one_place() -> None:
     assert EvaluationConfig().seed == EvaluationSettings().seed == FoldOptions().seed == DEFAULT_SEED
     assert resolve_settings().evaluation == EvaluationSettings()
     assert resolve_settings().folds == FoldOptions()
+    assert scoring_settings() == EvaluationSettings()
+
+
+def test_scoring_settings_take_the_overrides_checked_and_read_no_config(monkeypatch) -> None:
+    monkeypatch.setattr(settings_module, "load_config", lambda path: pytest.fail("a config was read"))
+    assert scoring_settings(Overrides(mode="overlap", seed=3, bootstrap_samples=50)) == EvaluationSettings(
+        mode="overlap", seed=3, bootstrap_samples=50)
+    with pytest.raises(ConfigError, match="--bootstrap"):
+        scoring_settings(Overrides(bootstrap_samples=0))
 
 
 def test_without_a_config_the_recommended_one_is_used_not_the_bare_dataclass_defaults() -> None:

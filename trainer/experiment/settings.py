@@ -90,9 +90,7 @@ def resolve_settings(config_paths: Sequence[Path | str] = (), overrides: Overrid
     ``[evaluation]`` sections disagree on a key the command line does not set.
     """
     paths = [Path(p) for p in config_paths]
-    for section, values in (("evaluation", overrides.evaluation()), ("confidence", overrides.confidence())):
-        for key, value in values.items():
-            check_value(f"{section}.{key}", value, OPTION_NAMES.get(key, f"--{key.replace('_', '-')}"))
+    _check_overrides(overrides)
     if not paths and not DEFAULT_CONFIG.is_file():
         raise ConfigError(f"no config given, and the recommended one ({DEFAULT_CONFIG}) is not there",
                           "name a config with -c (itinerant's source has ready ones in configs/)")
@@ -106,8 +104,7 @@ def resolve_settings(config_paths: Sequence[Path | str] = (), overrides: Overrid
     unique_names(configs)
     evaluation = _shared_evaluation(configs, paths, set(overrides.evaluation()))
     values = {**evaluation.__dict__, **overrides.evaluation()}
-    settings = EvaluationSettings(mode=values["mode"], bootstrap_samples=values["bootstrap_samples"],
-                                  bootstrap_unit=values["bootstrap_unit"], seed=values["seed"])
+    settings = _scoring(values)
     folds = FoldOptions(folds=values["folds"], repeats=values["repeats"], seed=values["seed"],
                         leave_one_doc_out=overrides.leave_one_doc_out, leave_one_book_out=overrides.leave_one_book_out,
                         test_docs=overrides.test_docs)
@@ -115,6 +112,23 @@ def resolve_settings(config_paths: Sequence[Path | str] = (), overrides: Overrid
         raise ConfigError("choose one way to split: --leave-one-doc-out, --leave-one-book-out or a fixed split",
                           "drop all but one of them")
     return RunSettings(configs, settings, folds, paths)
+
+
+def scoring_settings(overrides: Overrides = Overrides()) -> EvaluationSettings:
+    """How to score where no config takes part (``itinerant score``): the evaluation defaults and the overrides."""
+    _check_overrides(overrides)
+    return _scoring({**EvaluationConfig().__dict__, **overrides.evaluation()})
+
+
+def _check_overrides(overrides: Overrides) -> None:
+    for section, values in (("evaluation", overrides.evaluation()), ("confidence", overrides.confidence())):
+        for key, value in values.items():
+            check_value(f"{section}.{key}", value, OPTION_NAMES.get(key, f"--{key.replace('_', '-')}"))
+
+
+def _scoring(values: dict[str, Any]) -> EvaluationSettings:
+    return EvaluationSettings(mode=values["mode"], bootstrap_samples=values["bootstrap_samples"],
+                              bootstrap_unit=values["bootstrap_unit"], seed=values["seed"])
 
 
 def _shared_evaluation(configs: Sequence[ExperimentConfig], paths: Sequence[Path],
