@@ -65,6 +65,10 @@ def test_grouped_kfold_refusals_quote_the_numbers() -> None:
         grouped_kfold(DOCS, 1, seed=13)
     with pytest.raises(ConfigError, match=r"^repeats must be at least 1, got 0"):
         grouped_kfold(DOCS, 2, seed=13, repeats=0)
+    with pytest.raises(ConfigError) as one_doc:
+        grouped_kfold(["d1", "d1", "d1"], 5, seed=13)
+    assert str(one_doc.value) == ("cross-validation needs at least 2 docs, got 1 (folds never split a doc)\n"
+                                  "  fix: add documents, or evaluate on a fixed split (--test)")
 
 
 def test_sklearn_group_kfold_refuses_the_same_case() -> None:

@@ -73,6 +73,9 @@ def grouped_kfold(docs: Sequence[str], n_splits: int, *, seed: int, repeats: int
         raise ConfigError(f"repeats must be at least 1, got {repeats}", "use 1 for a single cross-validation")
     sizes = Counter(docs)
     groups = sorted(sizes)
+    if len(groups) < 2:
+        raise ConfigError(f"cross-validation needs at least 2 docs, got {len(groups)} (folds never split a doc)",
+                          "add documents, or evaluate on a fixed split (--test)")
     if n_splits > len(groups):
         raise ConfigError(
             f"cannot have number of splits n_splits={n_splits} greater than the number of docs: {len(groups)}",
@@ -99,7 +102,7 @@ def leave_one_doc_out(docs: Sequence[str]) -> FoldPlan:
     groups = sorted(set(docs))
     if len(groups) < 2:
         raise ConfigError(f"leave-one-doc-out needs at least 2 docs, got {len(groups)}",
-                          "add documents, or evaluate on a fixed split")
+                          "add documents, or evaluate on a fixed split (--test)")
     return FoldPlan("leave_one_doc_out", None, [_fold(groups, {doc}) for doc in groups])
 
 
