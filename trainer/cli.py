@@ -190,8 +190,11 @@ def fit(
     outcome = fit_model(corpus, output, settings, skip_bad=skip_bad, jobs=jobs, progress=say)
     augmented = "; features augmented by corpus" if settings.configs[0].auxiliary.augment else ""
     for used in outcome.auxiliary:
+        outside = ", ".join(f"{role} {count}" for role, count in used["role_spans_left_out"].items())
+        outside = f"; role spans outside the inventory left out: {outside}" if outside else ""
         say(f"auxiliary corpus '{used['name']}' ({used['source']}): {used['records']} record(s) joined training, "
-            f"{used['left_out_shared_with_target']} left out (doc or id shared with the training corpus){augmented}")
+            f"{used['left_out_shared_with_target']} left out (doc or id shared with the training corpus){outside}"
+            f"{augmented}")
     if outcome.widened or outcome.dropped:
         say(f"alignment: {outcome.widened} span(s) widened to token boundaries, {outcome.dropped} dropped")
     if outcome.held_out:

@@ -31,6 +31,23 @@ def test_records_sharing_a_doc_or_an_id_with_the_target_are_left_out_and_counted
     assert corpus.to_dict()["records"] == 1 and corpus.to_dict()["left_out_shared_with_target"] == 2
 
 
+def test_an_auxiliary_corpus_with_other_roles_joins_with_those_spans_left_out_and_counted(tmp_path: Path) -> None:
+    path = tmp_path / "earlier-project.jsonl"
+    other = Record(id="e-s002", doc="e-1", text="We rode to Quillon by cart.",
+                   events=(Event(trigger=(3, 7), roles=(RoleSpan("mover", (0, 2)), RoleSpan("destination", (11, 18)),
+                                                         RoleSpan("vehicle", (22, 26)))),))
+    write_jsonl([_record("e-s001", "e-1"), other], path)
+    assert read_corpus([path], roles=None).records[1] == other  # read with any role name, as written
+    (corpus,) = read_auxiliary([str(path)], target=[], roles=("mover", "destination"))
+    assert corpus.roles_left_out == {"source": 1, "vehicle": 1}
+    assert corpus.to_dict()["role_spans_left_out"] == {"source": 1, "vehicle": 1}
+    first, second = corpus.records
+    assert [e.trigger for e in first.events] == [(3, 7)] and [r.role for r in first.events[0].roles] == ["mover"]
+    assert [(r.role, r.span) for r in second.events[0].roles] == [("mover", (0, 2)), ("destination", (11, 18))]
+    (same,) = read_auxiliary([str(path)], target=[], roles=("mover", "source", "destination", "vehicle"))
+    assert same.roles_left_out == {} and same.records[1] == other
+
+
 def test_unreviewed_pre_annotations_never_join_training(tmp_path: Path) -> None:
     path = tmp_path / "batch.jsonl"
     unreviewed = Record(id="p-s001", doc="p-1", text="We left Caddow.", events=(),

@@ -13,7 +13,8 @@ ships inside itinerant (:data:`PACKAGED_CORPORA`).
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from collections import Counter
+from dataclasses import dataclass, field, replace
 from importlib import resources
 from pathlib import Path
 from typing import Any, Sequence
@@ -39,12 +40,13 @@ class AuxiliaryCorpus:
     records: list[Record]
     fingerprint: str
     left_out: int = 0
+    roles_left_out: dict[str, int] = field(default_factory=dict)  # role spans outside the target's inventory, by role
 
     def to_dict(self) -> dict[str, Any]:
         """What a model file's metadata and a report say about it."""
         return {"name": self.name, "source": self.source, "records": len(self.records),
                 "docs": len({r.doc for r in self.records}), "fingerprint": self.fingerprint,
-                "left_out_shared_with_target": self.left_out}
+                "left_out_shared_with_target": self.left_out, "role_spans_left_out": dict(self.roles_left_out)}
 
 
 def packaged_name(source: str) -> str | None:
@@ -99,14 +101,32 @@ def read_auxiliary(sources: Sequence[str], *, target: Sequence[Record],
     """Read each auxiliary source, keeping the records a model may learn from that the target does not hold.
 
     Unreviewed pre-annotations are left out as in any training corpus; so are
-    records whose doc or id is in ``target``.
+    records whose doc or id is in ``target``. An auxiliary corpus may use
+    other roles than ``roles``, the target's inventory (another project's
+    conventions): its role spans outside the inventory are left out, and
+    counted by role; its events and other roles still teach the model.
     """
     target_docs = {r.doc for r in target}
     target_ids = {r.id for r in target}
     out: list[AuxiliaryCorpus] = []
     for source in sources:
-        usable, _ = read_corpus([source_path(source)], roles=roles).training_records()
+        usable, _ = read_corpus([source_path(source)], roles=None).training_records()
         kept = [r for r in usable if r.doc not in target_docs and r.id not in target_ids]
+        kept, outside = within_inventory(kept, roles)
         name = _domain_name(source, {c.name for c in out})
-        out.append(AuxiliaryCorpus(name, source, kept, fingerprint(kept), len(usable) - len(kept)))
+        out.append(AuxiliaryCorpus(name, source, kept, fingerprint(kept), len(usable) - len(kept), outside))
     return out
+
+
+def within_inventory(records: Sequence[Record], roles: Sequence[str]) -> tuple[list[Record], dict[str, int]]:
+    """The records with only the role spans whose role is in ``roles``, and how many spans of each other role went."""
+    allowed, outside = set(roles), Counter()
+    out = []
+    for record in records:
+        if not any(role.role not in allowed for event in record.events or () for role in event.roles):
+            out.append(record)
+            continue
+        outside.update(role.role for event in record.events for role in event.roles if role.role not in allowed)
+        out.append(record.with_events([replace(event, roles=tuple(r for r in event.roles if r.role in allowed))
+                                       for event in record.events]))
+    return out, dict(sorted(outside.items()))

@@ -60,9 +60,11 @@ def expand_paths(paths: Iterable[Path | str], pattern: str = "*.jsonl") -> list[
 
 
 def read_corpus(
-    paths: Sequence[Path | str], *, roles: tuple[str, ...] = DEFAULT_ROLES, skip_bad: bool = False
+    paths: Sequence[Path | str], *, roles: tuple[str, ...] | None = DEFAULT_ROLES, skip_bad: bool = False
 ) -> Corpus:
     """Read canonical JSONL files or folders of them into a :class:`Corpus`.
+
+    ``roles`` is the role inventory; ``None`` accepts any role name.
 
     Raises :class:`CorpusError` listing the errors when any record is bad and
     ``skip_bad`` is false.

@@ -68,7 +68,7 @@ class FileCheck:
 class _LineChecker:
     """Collects the problems of one JSON object (one line)."""
 
-    def __init__(self, file: str, line: int, roles: tuple[str, ...]) -> None:
+    def __init__(self, file: str, line: int, roles: tuple[str, ...] | None) -> None:
         self.file, self.line, self.roles = file, line, roles
         self.problems: list[Problem] = []
         self.record_id: str | None = None
@@ -147,8 +147,9 @@ class _LineChecker:
         self.confidence(role, where)
         name = role.get("role")
         if not isinstance(name, str):
-            self.add(f"{where}.role", "missing or not a string", f"use one of: {', '.join(self.roles)}")
-        elif name not in self.roles:
+            self.add(f"{where}.role", "missing or not a string",
+                     f"use one of: {', '.join(self.roles)}" if self.roles is not None else "name the role")
+        elif self.roles is not None and name not in self.roles:
             self.add(f"{where}.role", f"unknown role {name!r}", f"use one of: {', '.join(self.roles)} (or configure the role inventory)")
         if "span" not in role:
             self.add(f"{where}.span", "missing", "every role needs the span of its words")
@@ -278,14 +279,15 @@ def strict_loads(text: str) -> Any:
     return value
 
 
-def record_problems(record: Record, file: str, line: int, roles: tuple[str, ...]) -> list[Problem]:
+def record_problems(record: Record, file: str, line: int, roles: tuple[str, ...] | None) -> list[Problem]:
     """The errors the JSONL validation finds in an already built record (for the other formats' readers)."""
     checker = _LineChecker(file, line, roles)
     checker.check(record_to_dict(record))
     return [p for p in checker.problems if p.severity == ERROR]
 
 
-def check_line(file: str, number: int, line: str, roles: tuple[str, ...], first_seen: dict[str, str] | set[str]) -> FileCheck:
+def check_line(file: str, number: int, line: str, roles: tuple[str, ...] | None,
+               first_seen: dict[str, str] | set[str]) -> FileCheck:
     """Check one line; ``first_seen`` collects ids (a dict also remembers where each was first seen)."""
     result = FileCheck()
     checker = _LineChecker(file, number, roles)
@@ -311,7 +313,7 @@ def check_line(file: str, number: int, line: str, roles: tuple[str, ...], first_
     return result
 
 
-def check_files(paths: Iterable[Path], roles: tuple[str, ...] = DEFAULT_ROLES) -> FileCheck:
+def check_files(paths: Iterable[Path], roles: tuple[str, ...] | None = DEFAULT_ROLES) -> FileCheck:
     """Check canonical JSONL files together (ids must be unique across all of them).
 
     Raises :class:`~trainer.errors.UnreadableInputError` for a file that cannot
