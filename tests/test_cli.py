@@ -114,6 +114,15 @@ def test_fit_then_extract_on_a_small_corpus(tmp_path, demo_train):
     assert refused.exit_code == 2 and "--compare needs JSONL input" in refused.output
 
 
+def test_extract_of_an_input_without_sentences_warns_and_writes_an_empty_output(rules_model_file, tmp_path):
+    source, out = tmp_path / "blank.txt", tmp_path / "out.jsonl"
+    source.write_text("\n   \n\n", encoding="utf-8")
+    result = runner.invoke(app, ["extract", str(rules_model_file), str(source), "-o", str(out)])
+    assert result.exit_code == 0, result.output
+    assert f"warning: {source} holds no sentences (empty or blank lines only), so {out} is empty" in result.output
+    assert out.read_bytes() == b""
+
+
 def test_extract_refuses_a_tampered_model(tmp_path):
     from trainer.models.persist import save_model
 

@@ -250,7 +250,7 @@ def extract(
     if outcome.library is not None:
         _library_summary(outcome.library, output)
     else:
-        _book_summary(outcome.book, output)
+        _book_summary(outcome.book, sources[0], output)
     if outcome.comparison is not None:
         from trainer.reports.markdown import score_markdown
 
@@ -291,9 +291,11 @@ def library_progress(*, enabled: bool):
         yield update
 
 
-def _book_summary(book, output: Path) -> None:
+def _book_summary(book, source: Path, output: Path) -> None:
     resumed = f" (after {book.resumed} kept from the earlier run)" if book.resumed else ""
     say(f"{book.sentences} sentence(s){resumed}, {book.events} event(s), {book.roles} role(s) written to {output}")
+    if not book.sentences and not book.skipped:
+        say(f"warning: {source} holds no sentences (empty or blank lines only), so {output} is empty")
 
 
 def _library_summary(summary, folder: Path) -> None:
