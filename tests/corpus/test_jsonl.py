@@ -112,6 +112,7 @@ def test_property_file_round_trip_through_the_validating_reader(tmp_path_factory
 @pytest.mark.parametrize("tail, bad", [
     ("\u00e9".encode("utf-8") + b"\nline\nok \xff tail\n", 0xFF),  # a character split across blocks, a stray byte later
     (b"\xc3(\n", 0xC3),  # a lead byte at the end of the first block whose continuation never comes
+    (b"\n\nend \xe2\x82", 0xE2),  # a character cut short by the end of the file
 ])
 def test_not_utf8_locates_the_first_bad_byte_across_read_blocks(tmp_path, tail, bad):
     from trainer.corpus.jsonl import not_utf8

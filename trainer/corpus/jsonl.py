@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import codecs
 import json
+from itertools import chain
 from pathlib import Path
 from typing import Any, Iterable, Iterator
 
@@ -30,9 +31,9 @@ def not_utf8(path: Path, fix: str = "re-save the file as UTF-8") -> UnreadableIn
     """The error for a file that is not UTF-8, locating its first undecodable byte (line and byte offset)."""
     decoder, offset, line = codecs.getincrementaldecoder("utf-8")(), 0, 1
     with open(path, "rb") as handle:
-        for block in iter(lambda: handle.read(1 << 16), b""):
+        for block in chain(iter(lambda: handle.read(1 << 16), b""), [b""]):  # the empty block ends the decoding
             try:
-                decoder.decode(block)
+                decoder.decode(block, final=not block)
             except UnicodeDecodeError as exc:
                 # exc.start counts from the start of the bytes the decoder held back plus this block.
                 held = len(exc.object) - len(block)
