@@ -84,9 +84,10 @@ class RunSettings:
 
 
 def resolve_settings(config_paths: Sequence[Path | str] = (), overrides: Overrides = Overrides()) -> RunSettings:
-    """Read every config once (``configs/default.toml`` when none), apply the overrides and check the whole before any work.
+    """Read every config once (``configs/default.toml`` when none), apply the overrides, check all before any work.
 
     Refused: an override out of range, an auxiliary corpus that cannot be read,
+    a spaCy pipeline that is not installed or a data file that is not there,
     configs with different role inventories or names, and configs whose
     ``[evaluation]`` sections disagree on a key the command line does not set.
     """
@@ -95,11 +96,12 @@ def resolve_settings(config_paths: Sequence[Path | str] = (), overrides: Overrid
     if not paths and not DEFAULT_CONFIG.is_file():
         raise ConfigError(f"no config given, and the recommended one ({DEFAULT_CONFIG}) is not there",
                           "name a config with -c (itinerant's source has ready ones in configs/)")
-    configs = [add_auxiliary(load_config(p), overrides.auxiliary, overrides.augment) for p in paths or [DEFAULT_CONFIG]]
+    read = paths or [DEFAULT_CONFIG]
+    configs = [add_auxiliary(load_config(p), overrides.auxiliary, overrides.augment) for p in read]
     if overrides.confidence():
         configs = [replace(c, confidence=replace(c.confidence, **overrides.confidence())) for c in configs]
     check_sources([source for c in configs for source in c.auxiliary.corpora])
-    for config, path in zip(configs, paths or [DEFAULT_CONFIG]):
+    for config, path in zip(configs, read):
         check_config_inputs(config, str(path))
     roles = configs[0].roles
     if any(c.roles != roles for c in configs):
