@@ -21,6 +21,7 @@ from trainer.errors import PipelineNotFoundError
 # Candidate phrases, sentence splitting and lemmas need these whatever the groups.
 ALWAYS_NEEDED = ("tok2vec", "tagger", "parser", "attribute_ruler", "lemmatizer")
 
+
 def needed_components(groups: Iterable[str]) -> set[str]:
     """The pipeline components the given feature groups (``components`` in their table entries) and the extractor read."""
     needed = set(ALWAYS_NEEDED)
