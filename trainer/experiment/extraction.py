@@ -24,6 +24,23 @@ class ExtractOptions:
     scheduler: str | None = None
 
 
+INPUT_FORMATS = ("text", "jsonl")
+
+
+def check_options(options: ExtractOptions) -> None:
+    """Refuse, before anything is read, options no run can use."""
+    if options.input_format is not None and options.input_format not in INPUT_FORMATS:
+        raise ConfigError(f"--input-format {options.input_format!r} is not an input format",
+                          f"use one of: {', '.join(INPUT_FORMATS)} (or leave it out: by the file's extension)")
+    if options.batch_size < 1:
+        raise ConfigError(f"--batch-size {options.batch_size}: a batch needs at least 1 sentence", "e.g. --batch-size 256")
+    if options.jobs < 1:
+        raise ConfigError(f"--jobs {options.jobs}: at least one worker is needed", "e.g. --jobs 2")
+    if options.doc is not None and not options.doc.strip():
+        raise ConfigError("--doc is empty: every record needs a document name", "name the document, or leave --doc out "
+                          "for the file's name")
+
+
 @dataclass
 class ExtractOutcome:
     """One book's summary (``book``) or a library's (``library``), plus the comparison with gold when asked for."""
@@ -49,6 +66,7 @@ def extract(model: Path, sources: Sequence[Path], output: Path, options: Extract
     """
     from trainer.models.library import extract_library, names_a_library
 
+    check_options(options)
     if names_a_library(sources, output):
         if options.doc or options.compare:
             raise ConfigError("--doc and --compare work on one input file, not a library",
