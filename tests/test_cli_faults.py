@@ -124,6 +124,14 @@ CASES = {
         ("agree {d}/c.jsonl {d}/c.jsonl -o {d}/c.jsonl", "also an input"),
         ("explain {d}/no.itin", "no such model file"),
     ],
+    "option out of range": [
+        ("fit {d}/c.jsonl -o {d}/o.itin --jobs 0", "--jobs 0: at least one worker is needed"),
+        ("crossval {d}/c.jsonl -o {d}/run --jobs 0", "--jobs 0: at least one worker is needed"),
+        ("curve {d}/c.jsonl -o {d}/run --jobs -1", "--jobs -1: at least one worker is needed"),
+        ("crossval {d}/c.jsonl -o {d}/run --folds 1", "'evaluation.folds' must be at least 2, got 1"),
+        ("extract {d}/m.itin {d}/c.jsonl -o {d}/o.jsonl --batch-size 0", "a batch needs at least 1 sentence"),
+        ("extract {d}/m.itin {d}/c.jsonl -o {d}/o.jsonl --input-format xml", "'xml' is not an input format"),
+    ],
 }
 
 

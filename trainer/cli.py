@@ -188,13 +188,8 @@ def fit(
                           target_precision=target_precision)
     settings = resolve_settings([config] if config else [], overrides)
     outcome = fit_model(corpus, output, settings, skip_bad=skip_bad, jobs=jobs, progress=say)
-    augmented = "; features augmented by corpus" if settings.configs[0].auxiliary.augment else ""
     for used in outcome.auxiliary:
-        outside = ", ".join(f"{role} {count}" for role, count in used["role_spans_left_out"].items())
-        outside = f"; role spans outside the inventory left out: {outside}" if outside else ""
-        say(f"auxiliary corpus '{used['name']}' ({used['source']}): {used['records']} record(s) joined training, "
-            f"{used['left_out_shared_with_target']} left out (doc or id shared with the training corpus){outside}"
-            f"{augmented}")
+        say(_auxiliary_line(used, augmented=settings.configs[0].auxiliary.augment))
     if outcome.widened or outcome.dropped:
         say(f"alignment: {outcome.widened} span(s) widened to token boundaries, {outcome.dropped} dropped")
     if outcome.held_out:
@@ -208,6 +203,15 @@ def fit(
     say(f"model written to {output} ({meta['payload_bytes']} bytes, {meta['training_seconds']} s); digest in {output}.sha256")
     if outcome.skipped:
         raise typer.Exit(1)
+
+
+def _auxiliary_line(used: dict, *, augmented: bool) -> str:
+    """What one auxiliary corpus brought to a training run (its entry in the model's metadata)."""
+    outside = ", ".join(f"{role} {count}" for role, count in used["role_spans_left_out"].items())
+    return (f"auxiliary corpus '{used['name']}' ({used['source']}): {used['records']} record(s) joined training, "
+            f"{used['left_out_shared_with_target']} left out (doc or id shared with the training corpus)"
+            + (f"; role spans outside the inventory left out: {outside}" if outside else "")
+            + ("; features augmented by corpus" if augmented else ""))
 
 
 @app.command()

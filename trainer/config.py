@@ -304,6 +304,12 @@ def add_auxiliary(config: ExperimentConfig, corpora: Sequence[str] = (), augment
     return replace(config, auxiliary=auxiliary)
 
 
+def check_jobs(jobs: int) -> None:
+    """Refuse a worker-process count (``--jobs``) below 1."""
+    if jobs < 1:
+        raise ConfigError(f"--jobs {jobs}: at least one worker is needed", "e.g. --jobs 2")
+
+
 def check_config_inputs(config: ExperimentConfig, source: str) -> None:
     """Refuse, before any work, a spaCy pipeline that is not installed, or a gazetteer, CoNLL-U or lexicon file
     the config names that is not there (without loading any of them)."""

@@ -20,7 +20,7 @@ from joblib import Parallel, delayed, parallel_config
 from spacy.language import Language
 from spacy.tokens import Doc
 
-from trainer.config import ExperimentConfig
+from trainer.config import ExperimentConfig, check_jobs
 from trainer.corpus.reader import Corpus, expand_paths, read_corpus
 from trainer.corpus.records import Record
 from trainer.errors import ConfigError, CorpusError
@@ -203,6 +203,7 @@ def crossval_experiment(corpus_paths: Sequence[Path | str], settings: RunSetting
     """
     from trainer.experiment.curve import learning_curve
 
+    check_jobs(jobs)
     corpus_paths, folder = [Path(p) for p in corpus_paths], Path(folder)
     check_output(folder, inputs=[*corpus_paths, *settings.config_paths, *test_paths], folder=True, what="report folder")
     with output_lock(folder):

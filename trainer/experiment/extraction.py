@@ -6,6 +6,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Callable, Sequence
 
+from trainer.config import check_jobs
 from trainer.errors import ConfigError
 
 
@@ -34,8 +35,7 @@ def check_options(options: ExtractOptions) -> None:
                           f"use one of: {', '.join(INPUT_FORMATS)} (or leave it out: by the file's extension)")
     if options.batch_size < 1:
         raise ConfigError(f"--batch-size {options.batch_size}: a batch needs at least 1 sentence", "e.g. --batch-size 256")
-    if options.jobs < 1:
-        raise ConfigError(f"--jobs {options.jobs}: at least one worker is needed", "e.g. --jobs 2")
+    check_jobs(options.jobs)
     if options.doc is not None and not options.doc.strip():
         raise ConfigError("--doc is empty: every record needs a document name", "name the document, or leave --doc out "
                           "for the file's name")

@@ -7,6 +7,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Sequence
 
+from trainer.config import check_jobs
 from trainer.corpus.auxiliary import local_paths
 from trainer.corpus.reader import expand_paths, read_corpus, skipped_summary
 from trainer.evaluation.runs import Progress
@@ -46,6 +47,7 @@ def fit_model(corpus: Sequence[Path], output: Path, settings: RunSettings, *, sk
     from trainer.models.persist import digest_path
     from trainer.models.training import fit_extractor, save_extractor
 
+    check_jobs(jobs)
     config = settings.configs[0]
     say = progress or (lambda message: None)
     auxiliary = local_paths(config.auxiliary.corpora)
