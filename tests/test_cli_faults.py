@@ -131,6 +131,9 @@ CASES = {
         ("crossval {d}/c.jsonl -o {d}/run --folds 1", "'evaluation.folds' must be at least 2, got 1"),
         ("extract {d}/m.itin {d}/c.jsonl -o {d}/o.jsonl --batch-size 0", "a batch needs at least 1 sentence"),
         ("extract {d}/m.itin {d}/c.jsonl -o {d}/o.jsonl --input-format xml", "'xml' is not an input format"),
+        ("check {d}/c.jsonl --roles ,", "--roles ',': roles must not be empty"),
+        ("score {d}/c.jsonl {d}/c.jsonl --roles mover,mover", "roles must not repeat"),
+        ("agree {d}/c.jsonl {d}/c.jsonl --roles mover,trigger", "['trigger'] are reserved for score names"),
     ],
 }
 

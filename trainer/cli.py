@@ -109,10 +109,18 @@ def progress_bar(label: str, *, enabled: bool):
         yield update
 
 
-def _roles(value: str | None):
+def _roles(value: str | None) -> tuple[str, ...]:
     from trainer.corpus.records import DEFAULT_ROLES
+    from trainer.errors import ConfigError
+    from trainer.evaluation.scoring import check_roles
 
-    return tuple(r.strip() for r in value.split(",") if r.strip()) if value else DEFAULT_ROLES
+    if value is None:
+        return DEFAULT_ROLES
+    try:
+        return check_roles([r.strip() for r in value.split(",") if r.strip()])
+    except ConfigError as exc:
+        raise ConfigError(f"--roles {value!r}: {exc.cause}", "name each role once, comma-separated, e.g. "
+                          "--roles mover,destination (trigger, micro, macro and unlinked: are score names)") from None
 
 
 @app.command()
