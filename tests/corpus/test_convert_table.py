@@ -156,6 +156,16 @@ def test_convert_file_jsonl_to_table_and_back(tmp_path: Path) -> None:
     assert_same(FORMATS["jsonl"].reader(tmp_path / "back.jsonl").records, sample_records())
 
 
+@pytest.mark.parametrize("suffix", [".csv", ".tsv"])
+def test_an_empty_table_file_is_refused_naming_the_header(tmp_path: Path, suffix: str) -> None:
+    path = tmp_path / f"empty{suffix}"
+    path.write_text("", encoding="utf-8")
+    with pytest.raises(CorpusError) as caught:
+        read_table(path)
+    assert caught.value.cause == f"{path}: is empty, not even a header row"
+    assert "id, doc, status, event," in caught.value.fix
+
+
 def test_unknown_input_format_names_the_allowed_ones(tmp_path: Path) -> None:
     with pytest.raises(UnknownFormatError) as caught:
         convert_file(tmp_path / "a.xlsx", tmp_path / "b.jsonl", from_format="excel", to_format="jsonl")

@@ -184,7 +184,10 @@ class _TableReader:
             raise UnreadableInputError(f"{self.path}: no such file", "check the path") from None
         except UnicodeDecodeError:
             raise not_utf8(self.path, "save the sheet as 'CSV UTF-8' (or TSV in UTF-8)") from None
-        except (pd.errors.ParserError, pd.errors.EmptyDataError) as exc:
+        except pd.errors.EmptyDataError:
+            raise CorpusError(f"{self.path}: is empty, not even a header row",
+                              f"write the header ({', '.join(COLUMNS)}) and one row per role") from None
+        except pd.errors.ParserError as exc:
             raise CorpusError(f"{self.path}: not a readable table ({exc})",
                               "check the quoting and that every row has the same number of cells") from None
 
