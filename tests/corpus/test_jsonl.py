@@ -5,11 +5,10 @@ from __future__ import annotations
 import json
 
 import pytest
-
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from trainer.corpus.jsonl import dumps_record, record_from_dict, write_jsonl
+from trainer.corpus.jsonl import dumps_record, not_utf8, record_from_dict, write_jsonl
 from trainer.corpus.reader import read_corpus
 from trainer.corpus.records import Event, Record, RoleSpan
 
@@ -115,8 +114,6 @@ def test_property_file_round_trip_through_the_validating_reader(tmp_path_factory
     (b"\n\nend \xe2\x82", 0xE2),  # a character cut short by the end of the file
 ])
 def test_not_utf8_locates_the_first_bad_byte_across_read_blocks(tmp_path, tail, bad):
-    from trainer.corpus.jsonl import not_utf8
-
     # The file is read in 64 KiB blocks and the tail starts one byte before the second; the reference position
     # is the one Python's own UTF-8 codec reports for the whole file at once.
     body = b"a\n" * 32767 + b"x" + tail
