@@ -14,7 +14,7 @@ ships inside itinerant (:data:`PACKAGED_CORPORA`).
 from __future__ import annotations
 
 from collections import Counter
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, field
 from importlib import resources
 from pathlib import Path
 from typing import Any, Sequence
@@ -120,13 +120,9 @@ def read_auxiliary(sources: Sequence[str], *, target: Sequence[Record],
 
 def within_inventory(records: Sequence[Record], roles: Sequence[str]) -> tuple[list[Record], dict[str, int]]:
     """The records with only the role spans whose role is in ``roles``, and how many spans of each other role went."""
-    allowed, outside = set(roles), Counter()
-    out = []
+    allowed, outside, out = set(roles), Counter(), []
     for record in records:
-        if not any(role.role not in allowed for event in record.events or () for role in event.roles):
-            out.append(record)
-            continue
-        outside.update(role.role for event in record.events for role in event.roles if role.role not in allowed)
-        out.append(record.with_events([replace(event, roles=tuple(r for r in event.roles if r.role in allowed))
-                                       for event in record.events]))
+        kept, left_out = record.within_roles(allowed)
+        outside.update(role.role for _, role in left_out)
+        out.append(kept)
     return out, dict(sorted(outside.items()))

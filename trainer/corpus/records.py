@@ -9,7 +9,7 @@ indices into ``text`` counted in Unicode code points, end exclusive.
 from __future__ import annotations
 
 from dataclasses import dataclass, field, replace
-from typing import Any, Sequence
+from typing import Any, Collection, Sequence
 
 DEFAULT_ROLES: tuple[str, ...] = ("mover", "source", "path", "destination")
 
@@ -60,6 +60,15 @@ class Record:
     def with_events(self, events: Sequence[Event] | None) -> "Record":
         """A copy of the record carrying other events (meta kept)."""
         return replace(self, events=None if events is None else tuple(events))
+
+    def within_roles(self, roles: Collection[str]) -> tuple["Record", list[tuple[int, RoleSpan]]]:
+        """The record with only the role spans whose role is in ``roles``, and the others left out, each with the
+        number (from 1) of its event."""
+        left_out = [(n, r) for n, e in enumerate(self.events or (), start=1) for r in e.roles if r.role not in roles]
+        if not left_out:
+            return self, []
+        return self.with_events([replace(e, roles=tuple(r for r in e.roles if r.role in roles))
+                                 for e in self.events]), left_out
 
     def same_content(self, other: "Record") -> bool:
         """Equality including ``meta`` (dataclass equality ignores it)."""

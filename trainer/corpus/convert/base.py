@@ -7,7 +7,7 @@ conversion was exact.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, field
 
 from trainer.corpus.records import Record
 
@@ -29,18 +29,10 @@ def writable(record: Record, roles: tuple[str, ...], *, keeps_confidence: bool) 
     losses: list[str] = []
     if not keeps_confidence and _has_confidence(record):
         losses.append(f"{record.id}: confidence scores cannot be written in this format; left out")
-    if not record.events:
-        return record, losses
-    events = []
-    for number, event in enumerate(record.events, start=1):
-        for role in event.roles:
-            if role.role not in roles:
-                losses.append(
-                    f"{record.id}, event {number}: role {role.role!r} {list(role.span)} is not in the inventory "
-                    f"({', '.join(roles)}); left out"
-                )
-        events.append(replace(event, roles=tuple(r for r in event.roles if r.role in roles)))
-    return record.with_events(events), losses
+    record, left_out = record.within_roles(roles)
+    losses += [f"{record.id}, event {number}: role {role.role!r} {list(role.span)} is not in the inventory "
+               f"({', '.join(roles)}); left out" for number, role in left_out]
+    return record, losses
 
 
 def _has_confidence(record: Record) -> bool:
