@@ -593,14 +593,13 @@ def agree(
 
 
 DEMO_DATA = Path(__file__).resolve().parent.parent / "demo_annotations"
-DEMO_CONFIGS = READY_CONFIGS
 
 
 @app.command()
 @user_errors
 def demo(
     data: Annotated[Path, typer.Option(help="The demo corpus folder.")] = DEMO_DATA,
-    configs: Annotated[Path, typer.Option(help="Folder of the ready configs.")] = DEMO_CONFIGS,
+    configs: Annotated[Path, typer.Option(help="Folder of the ready configs.")] = READY_CONFIGS,
     output: Annotated[Path, typer.Option("--output", "-o", help="Where the demo writes its results.")] = Path("runs/demo"),
 ) -> None:
     """Run the main job on the demo corpus: check, compare extractors by cross-validation, train, extract."""

@@ -310,6 +310,12 @@ def check_jobs(jobs: int) -> None:
         raise ConfigError(f"--jobs {jobs}: at least one worker is needed", "e.g. --jobs 2")
 
 
+def check_batch_size(size: int) -> None:
+    """Refuse an extraction batch (``--batch-size``) of no sentences: nothing would ever be read."""
+    if size < 1:
+        raise ConfigError(f"--batch-size {size}: a batch needs at least 1 sentence", "e.g. --batch-size 256")
+
+
 def check_config_inputs(config: ExperimentConfig, source: str) -> None:
     """Refuse, before any work, a spaCy pipeline that is not installed, or a gazetteer, CoNLL-U or lexicon file
     the config names that is not there (without loading any of them)."""

@@ -43,6 +43,6 @@ def test_extract_file_refuses_an_empty_batch_size_from_python(rules_model_file, 
     trained, _ = load_extractor(rules_model_file)
     source = tmp_path / "b.txt"
     source.write_text("We left Caddow.\n", encoding="utf-8")
-    with pytest.raises(ConfigError, match="batch_size 0: a batch needs at least 1 sentence"):
+    with pytest.raises(ConfigError, match="^--batch-size 0: a batch needs at least 1 sentence"):
         extract_file(trained, source, tmp_path / "o.jsonl", batch_size=0)
     assert sorted(p.name for p in tmp_path.iterdir()) == ["b.txt"]

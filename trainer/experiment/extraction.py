@@ -6,7 +6,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Callable, Sequence
 
-from trainer.config import check_jobs
+from trainer.config import check_batch_size, check_jobs
 from trainer.errors import ConfigError
 
 
@@ -33,8 +33,7 @@ def check_options(options: ExtractOptions) -> None:
     if options.input_format is not None and options.input_format not in INPUT_FORMATS:
         raise ConfigError(f"--input-format {options.input_format!r} is not an input format",
                           f"use one of: {', '.join(INPUT_FORMATS)} (or leave it out: by the file's extension)")
-    if options.batch_size < 1:
-        raise ConfigError(f"--batch-size {options.batch_size}: a batch needs at least 1 sentence", "e.g. --batch-size 256")
+    check_batch_size(options.batch_size)
     check_jobs(options.jobs)
     if options.doc is not None and not options.doc.strip():
         raise ConfigError("--doc is empty: every record needs a document name", "name the document, or leave --doc out "

@@ -24,10 +24,11 @@ from typing import Callable, Iterable, Iterator, Sequence
 from spacy.language import Language
 from spacy.tokens import Doc
 
+from trainer.config import check_batch_size
 from trainer.corpus.jsonl import dumps_record, not_utf8
 from trainer.corpus.reader import iter_records
 from trainer.corpus.records import Record
-from trainer.errors import ConfigError, CorpusError, UnreadableInputError
+from trainer.errors import CorpusError, UnreadableInputError
 from trainer.models.training import TrainedExtractor, parser_for
 from trainer.outputs import WRITE_ERRNOS, check_output, output_lock, publish, write_failed, write_text
 from trainer.parsing.parse import parse_records
@@ -211,8 +212,7 @@ def extract_file(
     be ``source``, and a second run writing the same ``target`` is refused.
     """
     source, target = Path(source), Path(target)
-    if batch_size < 1:
-        raise ConfigError(f"batch_size {batch_size}: a batch needs at least 1 sentence", "e.g. 256")
+    check_batch_size(batch_size)
     check_source(source)
     check_output(target, inputs=[source], what="extraction output")
     plain_text = input_format == "text"

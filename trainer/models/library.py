@@ -25,7 +25,7 @@ from multiprocessing import get_context
 from pathlib import Path
 from typing import Any, Callable, Iterator, Sequence
 
-from trainer.config import check_jobs
+from trainer.config import check_batch_size, check_jobs
 from trainer.errors import ConfigError, ItinerantError, ModelFileError, OutputError, UnreadableInputError
 from trainer.outputs import check_output, output_lock
 
@@ -224,6 +224,7 @@ def extract_library(
     started = time.perf_counter()
     model_path, folder = Path(model_path), Path(folder)
     check_jobs(jobs)
+    check_batch_size(batch_size)
     if folder.suffix and not folder.is_dir():
         raise OutputError(f"{folder}: a library is written to a folder, one file per book, but this names a file",
                           "name a folder for -o (e.g. -o extracted), or give one input file")
