@@ -16,7 +16,10 @@ see its ``SOURCES.md``):
    against the corpus and the default's held-out predictions against each;
 2. every config trained on the whole invented demo corpus
    (``demo_annotations/train``) and applied to all real-prose sentences;
-3. with ``--curve``, a learning curve on the same folds: the default with and
+3. with ``--passages N``, leave one book out again for the rules and the
+   default, the same sentences joined into records of N consecutive
+   sentences of a doc (the spec lets a record hold a short passage);
+4. with ``--curve``, a learning curve on the same folds: the default with and
    without its auxiliary corpus and the CRF config trained on growing shares
    of the five training books' chapters (the held-out book unchanged), against
    the rules, which need no training; the whole share is the run of step 1,
@@ -25,7 +28,11 @@ see its ``SOURCES.md``):
 All figures come from this one run; nothing is asserted here
 (``tests/external/test_real_prose.py`` asserts the headline comparison).
 
-    python bench/real_prose.py [--jobs 2] [--bootstrap 1000] [--curve]
+    python bench/real_prose.py [--corpus PATH...] [--second FILE] [--jobs 2] [--bootstrap 1000] [--passages 3] [--curve]
+
+``--corpus`` runs the same tables on another annotated corpus (docs named
+``<book>-<chapter number>``, at least two books), for example one's own;
+the second-annotator section then needs ``--second``.
 """
 
 from __future__ import annotations
@@ -38,7 +45,8 @@ from typing import Sequence
 
 from trainer.config import AuxiliaryConfig, ExperimentConfig, load_config
 from trainer.corpus.reader import read_corpus
-from trainer.corpus.records import Record
+from trainer.corpus.records import Event, Record, RoleSpan
+from trainer.errors import ItinerantError
 from trainer.evaluation.bootstrap import bootstrap_f1s
 from trainer.evaluation.breakdown import by_group
 from trainer.experiment.crossval import run_crossval
@@ -101,8 +109,35 @@ def configs(names: Sequence[str] = ("rules", "crf", "logistic", "default"), *,
     return out
 
 
-def real_prose_records() -> list[Record]:
-    return [r for r in read_corpus([REAL_PROSE]).records if r.is_annotated]
+def real_prose_records(paths: Sequence[Path] = (REAL_PROSE,)) -> list[Record]:
+    """The annotated records of the real-prose corpus, or of the corpus files or folders given."""
+    return [r for r in read_corpus(list(paths)).records if r.is_annotated]
+
+
+def passage_records(records: Sequence[Record], size: int) -> list[Record]:
+    """The records joined, in corpus order, into passages of up to ``size`` consecutive sentences of one doc.
+
+    The spec lets a record hold a short passage; a team may annotate that
+    way. Sentences are joined with one space, and the events' offsets move
+    with their sentence, so the annotation is the same, record by record.
+    """
+    groups: list[list[Record]] = []
+    for record in records:
+        if groups and groups[-1][-1].doc == record.doc and len(groups[-1]) < size:
+            groups[-1].append(record)
+        else:
+            groups.append([record])
+    out = []
+    for group in groups:
+        text, events = "", []
+        for record in group:
+            shift = len(text) + (1 if text else 0)
+            text = f"{text} {record.text}" if text else record.text
+            events += [Event((e.trigger[0] + shift, e.trigger[1] + shift),
+                             tuple(RoleSpan(r.role, (r.span[0] + shift, r.span[1] + shift)) for r in e.roles))
+                       for e in record.events or ()]
+        out.append(Record(f"{group[0].id}-p{len(group)}", group[0].doc, text, tuple(events)))
+    return out
 
 
 def _row(name: str, counts: dict[str, CorpusCounts], roles: Sequence[str], *, bootstrap: int, seed: int,
@@ -171,10 +206,10 @@ def book_lines(run: CrossvalRun, names: Sequence[str] = ("rules", "default")) ->
     return lines
 
 
-def agreement_lines(run: CrossvalRun, name: str = "default") -> list[str]:
+def agreement_lines(run: CrossvalRun, name: str = "default", second_path: Path = SECOND_ANNOTATOR) -> list[str]:
     """Overlap trigger and role F1 on the sentences the second annotator labelled: that annotator against the
     corpus, and one config's held-out predictions from ``run`` against each annotator."""
-    second = {r.id: r for r in read_corpus([SECOND_ANNOTATOR]).records if r.is_annotated}
+    second = {r.id: r for r in read_corpus([second_path]).records if r.is_annotated}
     gold = [r for r in run.records if r.id in second]
     system = next(s for s in run.systems if s.name == name)
     predicted = {r.id: r for r in system.predictions()}
@@ -227,32 +262,61 @@ HEADER = (f"{'extractor':28} | role F1 overlap [95% CI] | role F1 exact [95% CI]
 
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.split("\n")[0])
+    parser.add_argument("--corpus", type=Path, nargs="+", default=[REAL_PROSE], metavar="PATH",
+                        help="annotated JSONL files or folders to evaluate on instead of the real-prose corpus; "
+                             "docs named <book>-<chapter number> (at least two books)")
+    parser.add_argument("--second", type=Path, metavar="FILE",
+                        help="a second annotation of some of the corpus's records, same ids and texts (default: the "
+                             "real-prose corpus's, when that corpus is used)")
     parser.add_argument("--jobs", type=int, default=2, help="worker processes for the folds")
     parser.add_argument("--bootstrap", type=int, default=1000, help="bootstrap samples per interval")
+    parser.add_argument("--passages", type=int, default=0, metavar="N",
+                        help="also leave one book out for the rules and the default with the sentences joined into "
+                             "records of N consecutive sentences of a doc (about 3 more minutes on 2 cores)")
     parser.add_argument("--curve", action="store_true",
                         help="also the learning curve over shares of the training chapters (about 11 more minutes on 2 cores)")
     args = parser.parse_args()
-    records = real_prose_records()
+    if args.passages == 1 or args.passages < 0:
+        parser.error(f"--passages must be 2 or more (0 for none), got {args.passages}")
+    try:
+        report(args)
+    except ItinerantError as error:  # an unreadable corpus, fewer than two books, ...
+        parser.exit(2, f"error: {error}\n")
+
+
+def report(args: argparse.Namespace) -> None:
+    """Print every table the options ask for."""
+    records = real_prose_records(args.corpus)
+    second = args.second or (SECOND_ANNOTATOR if args.corpus == [REAL_PROSE] else None)
     books = sorted({book_of(r.doc) for r in records})
-    print(f"real-prose corpus: {len(records)} sentences, {sum(1 for r in records if r.events)} with events, "
-          f"{len(books)} books ({', '.join(books)})")
+    print(f"corpus {', '.join(map(str, args.corpus))}: {len(records)} records, "
+          f"{sum(1 for r in records if r.events)} with events, {len(books)} books ({', '.join(books)})")
     systems = configs()
     started = time.perf_counter()
-    print("\nLeave one book out (trained on five real books, plus any auxiliary corpus of the config):")
+    print("\nLeave one book out (trained on the other books, plus any auxiliary corpus of the config):")
     print(HEADER)
     run = leave_one_book_out_run(records, systems, jobs=args.jobs)
     for row in run_rows(run, bootstrap=args.bootstrap):
         print(row.line())
     print("\nBook by book (each held out in turn; overlap mode):")
     print(*book_lines(run), sep="\n")
-    print("\nTwo annotators and the default (held out) on the same sentences:")
-    print(*agreement_lines(run), sep="\n")
-    print("\nTrained on the whole demo corpus, applied to all real-prose sentences:")
+    if second is not None:
+        print("\nTwo annotators and the default (held out) on the same sentences:")
+        print(*agreement_lines(run, second_path=second), sep="\n")
+    print("\nTrained on the whole demo corpus, applied to every record of the corpus:")
     print(HEADER)
     for row in demo_trained_rows(records, configs(ablations=False), bootstrap=args.bootstrap):
         print(row.line())
+    if args.passages > 1:
+        passages = passage_records(records, args.passages)
+        print(f"\nLeave one book out, the same sentences in {len(passages)} records of up to {args.passages} "
+              "consecutive sentences of a doc:")
+        print(HEADER)
+        for row in leave_one_book_out_rows(passages, configs(("rules", "default"), ablations=False), jobs=args.jobs,
+                                           bootstrap=args.bootstrap):
+            print(row.line())
     if args.curve:
-        print("\nLearning curve, leave one book out (shares of the five training books' chapters, averaged over the six folds):")
+        print("\nLearning curve, leave one book out (shares of the training books' chapters, averaged over the folds):")
         print(*curve_lines(records, jobs=args.jobs, bootstrap=args.bootstrap, full_run=run), sep="\n")
     print(f"\n{time.perf_counter() - started:.0f} s in all")
 

@@ -9,9 +9,12 @@ particle of a listed phrasal verb, a listed word the rules block (negated,
 modal, ...), or a word the lexicons do not list. Printed per group: gold
 trigger tokens, those found, and false alarms; then the token-level F1 at the
 folds' own thresholds and at the best single and best pair of thresholds
-chosen with hindsight (an upper bound on what threshold choice alone can give).
+chosen with hindsight (an upper bound on what threshold choice alone can give);
+last, each fold's inner-fold F1 curve (what the default chooses its threshold
+from) and the token F1 when the threshold is read off those curves in other
+ways: smoothed, the lowest or the middle one near the best.
 
-    python bench/trigger_errors.py [--config configs/default.toml]
+    python bench/trigger_errors.py [--config configs/default.toml] [--corpus PATH...]
 """
 
 from __future__ import annotations
@@ -19,8 +22,10 @@ from __future__ import annotations
 import argparse
 from collections import Counter
 from pathlib import Path
+from statistics import mean
+from typing import Callable
 
-from real_prose import ROOT, real_prose_records
+from real_prose import REAL_PROSE, ROOT, real_prose_records
 
 from trainer.config import load_config
 from trainer.errors import ItinerantError
@@ -46,29 +51,70 @@ def token_f1(points: list[tuple[float, bool, str, float]], gold: int, threshold:
     return prf(tp, fp, gold - tp)[2]
 
 
+def argmax_threshold(scores: dict[float, float]) -> float:
+    """The threshold of the best inner-fold F1, the highest among equals (what the extractor does)."""
+    return max(scores, key=lambda t: (scores[t], t))
+
+
+def smoothed_threshold(scores: dict[float, float]) -> float:
+    """The best threshold after averaging each one's inner-fold F1 with its neighbours' on the grid."""
+    grid = sorted(scores)
+    return argmax_threshold({t: mean(scores[u] for u in grid[max(0, i - 1) : i + 2]) for i, t in enumerate(grid)})
+
+
+def _near_best(scores: dict[float, float], within: float) -> list[float]:
+    best = max(scores.values())
+    return sorted(t for t, f1 in scores.items() if f1 >= best - within)
+
+
+def lowest_near_best(scores: dict[float, float]) -> float:
+    """The lowest threshold whose inner-fold F1 is within 0.005 of the best (recall first)."""
+    return _near_best(scores, 0.005)[0]
+
+
+def middle_near_best(scores: dict[float, float]) -> float:
+    """The grid threshold nearest the mean of those within 0.005 of the best (the higher one on a tie)."""
+    centre = mean(_near_best(scores, 0.005))
+    return min(scores, key=lambda t: (abs(t - centre), -t))
+
+
+READINGS: tuple[tuple[str, Callable[[dict[float, float]], float]], ...] = (
+    ("best inner-fold F1 (the default's own)", argmax_threshold),
+    ("best after smoothing with the neighbours", smoothed_threshold),
+    ("lowest within 0.005 of the best", lowest_near_best),
+    ("middle of those within 0.005", middle_near_best),
+)
+
+
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.split("\n")[0])
     parser.add_argument("--config", type=Path, default=ROOT / "configs" / "default.toml")
+    parser.add_argument("--corpus", type=Path, nargs="+", default=[REAL_PROSE], metavar="PATH",
+                        help="annotated JSONL files or folders instead of the real-prose corpus (at least two books)")
     args = parser.parse_args()
     try:
         config = load_config(args.config)
+        records = real_prose_records(args.corpus)
+        plan = leave_one_book_out([r.doc for r in records])
     except ItinerantError as exc:
         parser.error(str(exc))
     learned = config.trigger_model.kind != "rules" and config.trigger_model.tune_threshold
     if "rules" not in config.features.groups or not learned:
         parser.error(f"{args.config}: needs the rules feature group and a learned trigger stage with a tuned "
                      "threshold ([trigger_model] tune_threshold = true), as in configs/default.toml")
-    records = real_prose_records()
     nlp = parser_for(config)
     docs, _ = parse_records(nlp, records, config.parser)
     points: list[tuple[float, bool, str, float]] = []  # (probability, gold, group, fold threshold) per held-out token
-    for _, test_docs in leave_one_book_out([r.doc for r in records]).folds:
+    curves: list[dict[float, float]] = []  # per fold, the inner-fold F1 of every threshold of the grid
+    fold_of: list[int] = []  # per point, its fold
+    for _, test_docs in plan.folds:
         held = set(test_docs)
         train = [i for i, r in enumerate(records) if r.doc not in held]
         test = [i for i, r in enumerate(records) if r.doc in held]
         extractor = fit_extractor([records[i] for i in train], config, nlp=nlp,
                                   docs=[docs[i] for i in train]).extractor
         threshold = extractor.trigger_finder.decision_threshold
+        curves.append(dict(extractor.threshold_scores_))
         features = extractor.prediction_features([docs[i] for i in test])
         distributions = extractor.trigger_finder.tagger.token_distributions(features)
         gold = gold_targets([records[i] for i in test], [docs[i] for i in test]).triggers
@@ -77,6 +123,7 @@ def main() -> None:
             for t, (probs, row) in enumerate(zip(sentence, rows)):
                 p = probs.get("B-TRIGGER", 0.0) + probs.get("I-TRIGGER", 0.0)
                 points.append((p, t in inside, group_of(row), threshold))
+                fold_of.append(len(curves) - 1)
     groups = sorted({point[2] for point in points})
     gold_n, found, alarms = Counter(), Counter(), Counter()
     for p, is_gold, group, threshold in points:
@@ -84,7 +131,7 @@ def main() -> None:
         found[group] += is_gold and p >= threshold
         alarms[group] += (not is_gold) and p >= threshold
     total_gold = sum(gold_n.values())
-    print(f"real-prose corpus, leave one book out, {args.config.name}: {total_gold} gold trigger tokens")
+    print(f"{', '.join(map(str, args.corpus))}, leave one book out, {args.config.name}: {total_gold} gold trigger tokens")
     print(f"{'group':36} | gold | found | false alarms")
     for group in groups:
         print(f"{group:36} | {gold_n[group]:4} | {found[group]:5} | {alarms[group]:5}")
@@ -97,6 +144,15 @@ def main() -> None:
                for a in THRESHOLD_GRID for b in THRESHOLD_GRID)
     print(f"best single threshold with hindsight: {single[0]:.3f} at {single[1]}")
     print(f"best pair with hindsight (listed and kept; the rest): {pair[0]:.3f} at {pair[1]} and {pair[2]}")
+    print("\ninner-fold F1 by threshold, per fold (" + " ".join(f"{t:g}" for t in THRESHOLD_GRID) + "):")
+    for k, curve in enumerate(curves):
+        print(f"  fold {k + 1}: " + " ".join(f"{curve[t]:.3f}" for t in THRESHOLD_GRID))
+    print("token-level F1 with the threshold read off each fold's inner-fold curve:")
+    for name, read in READINGS:
+        chosen = [read(curve) for curve in curves]
+        tp = sum(1 for (p, is_gold, _, _), k in zip(points, fold_of) if is_gold and p >= chosen[k])
+        fp = sum(1 for (p, is_gold, _, _), k in zip(points, fold_of) if not is_gold and p >= chosen[k])
+        print(f"  {name:42} {prf(tp, fp, total_gold - tp)[2]:.3f} (thresholds " + ", ".join(f"{t:g}" for t in chosen) + ")")
 
 
 if __name__ == "__main__":

@@ -348,7 +348,7 @@ def crossval(
     folds: FoldsOption = None,
     repeats: Annotated[Optional[int], typer.Option(help="Repeat the K folds with other shuffles.")] = None,
     leave_one_doc_out: Annotated[bool, typer.Option("--leave-one-doc-out", help="One fold per doc.")] = False,
-    leave_one_book_out: Annotated[bool, typer.Option("--leave-one-book-out", help="One fold per book (docs named <book>-<n>): domain shift.")] = False,
+    leave_one_book_out: Annotated[bool, typer.Option("--leave-one-book-out", help="One fold per book, a doc name without its trailing chapter number (<book>-3, <book>_ch03): domain shift.")] = False,
     test_docs: Annotated[Optional[str], typer.Option(help="Fixed split: comma-separated docs to test on.")] = None,
     test: Annotated[list[Path], typer.Option("--test", help="Fixed split: held-out test files (train on CORPUS).")] = [],
     mode: ModeOption = None,

@@ -129,6 +129,21 @@ def test_leave_one_book_out_holds_out_all_chapters_of_a_book_together():
         assert {book_of(d) for d in train}.isdisjoint({book_of(d) for d in test})
 
 
+@pytest.mark.parametrize("doc, book", [
+    ("varrow-uplands-12", "varrow-uplands"), ("varrow_uplands_03", "varrow_uplands"), ("varrow.7", "varrow"),
+    ("varrow-ch3", "varrow"), ("varrow_chapter_12b", "varrow"), ("Varrow Uplands, Letter IV", "Varrow Uplands"),
+    ("varrow-vol2-ch3", "varrow"), ("Varrow Uplands, vol. 2, chapter IV", "Varrow Uplands"), ("varrow-part-1-day-4", "varrow"),
+    # Left as they are: no separator, a roman numeral without a unit word, nothing but a number.
+    ("lisle-letters", "lisle-letters"), ("pell-road-vi", "pell-road-vi"), ("ch3", "ch3"), ("12", "12"),
+    # Only the last bare number goes: a book named with a number keeps it.
+    ("route-66-1", "route-66"),
+])
+def test_book_of_drops_the_trailing_chapter_in_common_namings(doc, book):
+    from trainer.evaluation.folds import book_of
+
+    assert book_of(doc) == book
+
+
 def test_leave_one_book_out_needs_two_books():
     from trainer.evaluation.folds import leave_one_book_out
 

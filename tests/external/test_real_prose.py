@@ -73,3 +73,27 @@ def test_the_learned_default_beats_the_rules_leaving_one_book_out() -> None:
     assert sum(int(c[2]) for c in cells) == sum(len(r.events) for r in records)
     trigger_f1 = [(float(c[3].split("/")[1]), float(c[4].split("/")[1])) for c in cells]
     assert sum(default_f1 > rules_f1 for rules_f1, default_f1 in trigger_f1) >= 5
+
+
+def test_sentences_joined_into_passages_keep_every_annotation() -> None:
+    from trainer.evaluation.scoring import count_corpus
+
+    bench = load_bench("real_prose")
+    records = bench.real_prose_records()
+    passages = bench.passage_records(records, 3)
+    # 494 sentences, each doc's run cut into threes: fewer records, the same docs, events and role spans.
+    assert len(records) // 3 <= len(passages) < len(records)
+    assert sorted({p.doc for p in passages}) == sorted({r.doc for r in records})
+    assert sum(len(p.events) for p in passages) == sum(len(r.events) for r in records)
+    by_text = {}
+    for record in records:
+        for event in record.events:
+            key = (record.doc, record.span_text(event.trigger))
+            by_text.setdefault(key, []).append(sorted((a.role, record.span_text(a.span)) for a in event.roles))
+    for passage in passages:
+        for event in passage.events:
+            roles = sorted((a.role, passage.span_text(a.span)) for a in event.roles)
+            assert roles in by_text[(passage.doc, passage.span_text(event.trigger))]
+    # Scored against themselves, the passages are perfect (the scorer sees well-formed records).
+    scores = count_corpus(passages, passages, roles=("mover", "source", "path", "destination"), mode="exact").scores()
+    assert scores.micro.f1 == 1.0 and scores.trigger.f1 == 1.0

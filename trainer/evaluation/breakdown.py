@@ -3,7 +3,7 @@
 Every figure here is the same counts as the pooled scores, grouped another
 way, so they add up: the per-doc (or per-book, or per-fold) counts of a mode
 sum to the pooled counts of that mode. A book is a doc name without its
-trailing ``-<number>`` (:func:`trainer.evaluation.folds.book_of`).
+trailing chapter number (:func:`trainer.evaluation.folds.book_of`).
 
 A unit's scores are compact: records scored, then precision, recall, F1 and
 counts per role, micro (role counts pooled) and trigger.

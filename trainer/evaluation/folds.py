@@ -106,9 +106,26 @@ def leave_one_doc_out(docs: Sequence[str]) -> FoldPlan:
     return FoldPlan("leave_one_doc_out", None, [_fold(groups, {doc}) for doc in groups])
 
 
+# A doc name's trailing unit: a number after -, _, ., a comma or a space (-2, _02, " 2"), or one after a word naming the
+# unit (-ch3, _chapter_12, ", letter IV", -vol2; a roman numeral only after such a word).
+_UNITS = r"ch|chap|chapter|part|pt|letter|day|entry|section|sec|book|vol|volume"
+_NAMED_UNIT = rf"[-_.,: ]+(?:{_UNITS})[-_.: ]*(?:\d+[a-z]?|[ivxlc]+)$"
+_UNIT = re.compile(rf"[-_.,: ]+\d+[a-z]?$|{_NAMED_UNIT}", re.IGNORECASE)
+_NAMED = re.compile(_NAMED_UNIT, re.IGNORECASE)
+
+
 def book_of(doc: str) -> str:
-    """The book a doc belongs to: its name without a trailing chapter number (``varrow-uplands-2`` -> ``varrow-uplands``)."""
-    return re.sub(r"-\d+$", "", doc)
+    """The book a doc belongs to: its name without its trailing chapter (and volume or part) number.
+
+    >>> [book_of(d) for d in ("varrow-uplands-2", "varrow_uplands_ch03", "Varrow Uplands, vol. 2, chapter IV")]
+    ['varrow-uplands', 'varrow_uplands', 'Varrow Uplands']
+    >>> [book_of(d) for d in ("lisle-letters", "route-66-1", "12")]
+    ['lisle-letters', 'route-66', '12']
+    """
+    book = _UNIT.sub("", doc)
+    while (shorter := _NAMED.sub("", book)) != book:
+        book = shorter
+    return book or doc
 
 
 def leave_one_book_out(docs: Sequence[str]) -> FoldPlan:
@@ -119,7 +136,7 @@ def leave_one_book_out(docs: Sequence[str]) -> FoldPlan:
         books.setdefault(book_of(doc), set()).add(doc)
     if len(books) < 2:
         raise ConfigError(f"leave-one-book-out needs at least 2 books, got {len(books)} ({sorted(books)})",
-                          "name docs <book>-<chapter number>, or use a fixed split with --test-docs")
+                          "name docs <book>-<chapter number> (or <book>_ch<number>), or use a fixed split with --test-docs")
     return FoldPlan("leave_one_book_out", None, [_fold(groups, books[book]) for book in sorted(books)])
 
 
