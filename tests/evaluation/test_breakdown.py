@@ -70,3 +70,12 @@ def test_per_doc_per_book_and_per_fold_counts_pool_to_the_overall_counts(pair) -
             total = sum((Counts(f[mode][key]["tp"], f[mode][key]["fp"], f[mode][key]["fn"]) for f in folds), Counts())
             assert total == pooled(merged, key) == pooled(counts[mode], key)
     assert [f["docs"] for f in folds] == [h for h in halves if h]
+
+
+def test_a_fold_is_named_by_what_it_held_out_when_that_is_one_doc_or_one_book() -> None:
+    from trainer.evaluation.breakdown import fold_name
+
+    # leave one doc out; leave one book out (two chapters of one book); a K-fold fold over two books
+    assert fold_name({"repeat": 0, "fold": 3, "docs": ["pell-road-2"]}) == "repeat 0 fold 3 (pell-road-2)"
+    assert fold_name({"repeat": 0, "fold": 1, "docs": ["pell-road-1", "pell-road-2"]}) == "repeat 0 fold 1 (pell-road)"
+    assert fold_name({"repeat": 1, "fold": 0, "docs": ["pell-road-1", "varrow-uplands-2"]}) == "repeat 1 fold 0"

@@ -63,6 +63,15 @@ def breakdown(counts_by_mode: Mapping[str, CorpusCounts]) -> dict[str, Any]:
     }
 
 
+def fold_name(fold: Mapping[str, Any]) -> str:
+    """A :func:`fold_breakdown` entry's label: ``repeat 0 fold 2``, naming what it held out when that is one doc or one book."""
+    label = f"repeat {fold['repeat']} fold {fold['fold']}"
+    docs = list(fold.get("docs", ()))
+    books = {book_of(doc) for doc in docs}
+    held_out = docs[0] if len(docs) == 1 else next(iter(books)) if len(books) == 1 else ""
+    return f"{label} ({held_out})" if held_out else label
+
+
 def fold_breakdown(folds_by_mode: Mapping[str, Sequence[CorpusCounts]],
                    fold_labels: Sequence[tuple[int, int]]) -> list[dict[str, Any]]:
     """Each fold's held-out docs and compact scores in every mode; ``fold_labels``: (repeat, fold) of each part."""

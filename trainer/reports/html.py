@@ -33,6 +33,7 @@ from dataclasses import dataclass
 from typing import Any, Iterable, Mapping, Sequence
 
 from trainer.corpus.records import Record
+from trainer.evaluation.breakdown import fold_name
 from trainer.evaluation.error_analysis import classify_record
 from trainer.reports.plots import learning_curve_plot, precision_recall_plot, reliability_plot, role_f1_plot
 
@@ -387,14 +388,14 @@ def group_table(label: str, groups: Mapping[str, Mapping[str, Any]], css: str) -
 
 def breakdown_section(report: dict[str, Any], system: dict[str, Any]) -> str:
     """Both matching modes, then per book, per doc and per fold (each table folds open)."""
-    folds = {f"repeat {f['repeat']} fold {f['fold']}": f for f in system.get("per_fold", [])}
+    folds = {fold_name(f): f for f in system.get("per_fold", [])}
     parts = [("book", system.get("per_book", {}), "per-book"), ("doc", system.get("per_doc", {}), "per-doc"),
              ("fold", folds, "per-fold")]
     details = "".join(f'<details class="breakdown" open><summary>Per {title} ({len(groups)})</summary>'
                       f"{group_table(title, groups, css)}</details>" for title, groups, css in parts if groups)
     return (matching_table(report, system)
             + ("<h3>Per book, doc and fold</h3><p class=\"note\">The same held-out counts grouped by book (doc name "
-               "without its trailing number), by doc and by fold; each mode's groups add up to its pooled counts.</p>"
+               "without its trailing chapter number), by doc and by fold; each mode's groups add up to its pooled counts.</p>"
                + details if details else ""))
 
 

@@ -4,6 +4,8 @@ from __future__ import annotations
 
 from typing import Any
 
+from trainer.evaluation.breakdown import fold_name
+
 
 def _f(value: float) -> str:
     return f"{value:.3f}"
@@ -76,7 +78,7 @@ def breakdown_lines(system: dict[str, Any], roles: list[str]) -> list[str]:
         out += ["", f"- warning: {system['interval_warning']}"]
     if system.get("matching"):
         out += ["", "Exact and overlap matching:", ""] + matching_table(system, roles)
-    folds = {f"repeat {f['repeat']} fold {f['fold']}": f for f in system.get("per_fold", [])}
+    folds = {fold_name(f): f for f in system.get("per_fold", [])}
     for title, key, groups in (("book", "per_book", None), ("doc", "per_doc", None), ("fold", "per_fold", folds)):
         table = group_table(title, groups if groups is not None else system.get(key, {}))
         if table:
