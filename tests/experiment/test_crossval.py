@@ -185,3 +185,17 @@ def test_explained_run_keeps_the_features_behind_every_learned_predicted_span(sm
     assert all(w > 0 for found in explained.values() for features in found.values() for _, w in features)
     assert rules.explanations() == {}  # rules learn no weights
     assert [r.events for r in crf.predictions()] == [r.events for r in serial.systems[0].predictions()]
+
+
+def test_serial_progress_names_what_each_fold_holds_out(small, nlp, serial):
+    from trainer.evaluation.folds import leave_one_book_out
+
+    records, configs, _ = small
+    lines: list[str] = []
+    run_crossval(records, configs[1:], [leave_one_book_out([r.doc for r in records])], nlp=nlp, docs=serial.docs,
+                 progress=lines.append)
+    trained = [line for line in lines if "trained on" in line]
+    # one fold per book; each book has one doc here, so each fold is named by the doc it held out
+    assert [line.split(": trained")[0] for line in trained] == [
+        "[1/3] rules repeat 0 fold 0 (amsel-pilgrim-1)", "[2/3] rules repeat 0 fold 1 (brannick-log-1)",
+        "[3/3] rules repeat 0 fold 2 (quarne-salt-1)"]

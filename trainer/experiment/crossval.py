@@ -24,6 +24,7 @@ from trainer.config import ExperimentConfig, check_jobs
 from trainer.corpus.reader import Corpus, expand_paths, read_corpus
 from trainer.corpus.records import Record
 from trainer.errors import ConfigError, CorpusError
+from trainer.evaluation.breakdown import fold_name
 from trainer.evaluation.extrapolate import extrapolate_curve, extrapolation_report
 from trainer.evaluation.folds import FoldPlan, fixed_split, grouped_kfold, leave_one_book_out, leave_one_doc_out
 from trainer.evaluation.runs import CrossvalRun, FoldOutput, Progress, SystemRun
@@ -156,7 +157,8 @@ def _serial(tasks: list, progress: Progress | None) -> list[FoldOutput]:
         output = function(*args, **kwargs)
         outputs.append(output)
         if progress:
-            progress(f"[{number}/{len(tasks)}] {output.config} repeat {output.repeat} fold {output.fold}: "
+            held_out = {"repeat": output.repeat, "fold": output.fold, "docs": sorted({r.doc for r in output.predicted})}
+            progress(f"[{number}/{len(tasks)}] {output.config} {fold_name(held_out)}: "
                      f"trained on {output.train_records} records in {output.train_seconds:.1f} s")
     return outputs
 
