@@ -31,7 +31,7 @@ from trainer.config import load_config
 from trainer.errors import ItinerantError
 from trainer.evaluation.folds import leave_one_book_out
 from trainer.evaluation.scoring import prf
-from trainer.models.extractor import THRESHOLD_GRID, gold_targets
+from trainer.models.extractor import THRESHOLD_GRID, best_threshold, gold_targets
 from trainer.models.training import fit_extractor, parser_for
 from trainer.parsing.parse import parse_records
 
@@ -51,15 +51,10 @@ def token_f1(points: list[tuple[float, bool, str, float]], gold: int, threshold:
     return prf(tp, fp, gold - tp)[2]
 
 
-def argmax_threshold(scores: dict[float, float]) -> float:
-    """The threshold of the best inner-fold F1, the highest among equals (what the extractor does)."""
-    return max(scores, key=lambda t: (scores[t], t))
-
-
 def smoothed_threshold(scores: dict[float, float]) -> float:
     """The best threshold after averaging each one's inner-fold F1 with its neighbours' on the grid."""
     grid = sorted(scores)
-    return argmax_threshold({t: mean(scores[u] for u in grid[max(0, i - 1) : i + 2]) for i, t in enumerate(grid)})
+    return best_threshold({t: mean(scores[u] for u in grid[max(0, i - 1) : i + 2]) for i, t in enumerate(grid)})
 
 
 def _near_best(scores: dict[float, float], within: float) -> list[float]:
@@ -79,7 +74,7 @@ def middle_near_best(scores: dict[float, float]) -> float:
 
 
 READINGS: tuple[tuple[str, Callable[[dict[float, float]], float]], ...] = (
-    ("best inner-fold F1 (the default's own)", argmax_threshold),
+    ("best inner-fold F1 (the default's own)", best_threshold),
     ("best after smoothing with the neighbours", smoothed_threshold),
     ("lowest within 0.005 of the best", lowest_near_best),
     ("middle of those within 0.005", middle_near_best),

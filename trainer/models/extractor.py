@@ -8,7 +8,7 @@ Which trigger finder and which role labeller are used comes from the config
 from __future__ import annotations
 
 from dataclasses import dataclass, field, replace
-from typing import Sequence
+from typing import Mapping, Sequence
 
 from spacy.tokens import Doc
 
@@ -62,6 +62,11 @@ def build_trigger_finder(config: ModelConfig, featurizer: Featurizer) -> Trigger
 def build_role_labeller(config: ModelConfig, featurizer: Featurizer) -> RoleLabeller:
     """The role stage a model config names (its kind's entry in :data:`MODEL_KINDS`)."""
     return MODEL_KINDS[config.kind].role_labeller(config, featurizer)
+
+
+def best_threshold(scores: Mapping[float, float]) -> float:
+    """The threshold of the best inner-fold F1 (``threshold -> F1``), the highest among equals."""
+    return max(scores, key=lambda t: (scores[t], t))
 
 
 class MotionExtractor:
@@ -136,8 +141,7 @@ class MotionExtractor:
         for threshold in THRESHOLD_GRID:
             predicted = [{s[:2] for s in marginal_spans(d, TRIGGER_LABEL, threshold)} for d, _ in collected]
             scores[threshold] = round(f1_of_sets([g for _, g in collected], predicted), 6)
-        best = max(THRESHOLD_GRID, key=lambda t: (scores[t], t))
-        self.trigger_finder.decision_threshold = best
+        self.trigger_finder.decision_threshold = best_threshold(scores)
         self.threshold_scores_ = scores
 
     def fit(self, records: Sequence[Record], docs: Sequence[Doc], *,
