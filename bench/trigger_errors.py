@@ -70,7 +70,7 @@ def lowest_near_best(scores: dict[float, float]) -> float:
 def middle_near_best(scores: dict[float, float]) -> float:
     """The grid threshold nearest the mean of those within 0.005 of the best (the higher one on a tie)."""
     centre = mean(_near_best(scores, 0.005))
-    return min(scores, key=lambda t: (abs(t - centre), -t))
+    return min(scores, key=lambda t: (round(abs(t - centre), 9), -t))  # rounded: 0.15 and 0.2 are equally near 0.175
 
 
 READINGS: tuple[tuple[str, Callable[[dict[float, float]], float]], ...] = (
