@@ -41,3 +41,13 @@ def test_suggested_batches_are_not_worse_than_random_ones_and_both_learn(tmp_pat
     assert result.mean_over_rounds(uncertainty) >= result.mean_over_rounds(random_mean) - MARGIN
     assert uncertainty[-1] >= uncertainty[0] + MIN_GAIN
     assert random_mean[-1] >= random_mean[0] + MIN_GAIN
+    # Trigger F1 is kept per round beside role F1, with the same shared start.
+    triggers = result.trigger_f1[study.UNCERTAINTY]
+    assert len(triggers) == 5 and all(0.0 < f1 <= 1.0 for f1 in triggers)
+    assert triggers[0] == result.random_mean(result.trigger_f1)[0]
+
+
+def test_the_real_prose_study_names_the_books_when_the_held_out_one_is_unknown():
+    study = load_study()
+    with pytest.raises(SystemExit, match="no book 'atlantis'.*burton-pilgrimage, clark-journals"):
+        study.run_real_prose_study("atlantis")
