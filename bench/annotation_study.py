@@ -68,7 +68,7 @@ def study_config(cache_dir: Path | str, *, max_iterations: int = 50) -> Experime
 class StudyResult:
     """Role micro F1 (and trigger F1) per round for each strategy, and what the run was."""
 
-    start_docs: list[str]
+    start: str  # what was annotated at the start: the docs, or how the sentences were drawn
     pool_size: int
     test_size: int
     batch: int
@@ -108,7 +108,7 @@ class StudyResult:
 
 def simulate(
     config: ExperimentConfig, train: Sequence[Record], test: Sequence[Record], start: Sequence[Record], *,
-    start_docs: Sequence[str], rounds: int, batch: int, random_seeds: Sequence[int], measure: str,
+    start_label: str, rounds: int, batch: int, random_seeds: Sequence[int], measure: str,
     diversity: float, mode: str,
 ) -> StudyResult:
     """The loop itself: ``start`` records annotated, the rest of ``train`` the pool, ``test`` scored in ``mode``."""
@@ -128,7 +128,7 @@ def simulate(
         scores = score_corpus(test, trained.extractor.predict(test, test_docs), roles=config.roles, mode=mode)
         return (scores.micro.f1, scores.trigger.f1), trained
 
-    result = StudyResult(list(start_docs), len(pool), len(test), batch, measure, diversity, list(random_seeds))
+    result = StudyResult(start_label, len(pool), len(test), batch, measure, diversity, list(random_seeds))
     start_scores, start_model = fit_and_score(list(start))
     result.labelled = [len(start) + batch * r for r in range(rounds + 1)]
 
@@ -170,7 +170,7 @@ def run_study(
     unknown = sorted(set(start) - {r.doc for r in train})
     if unknown:
         raise SystemExit(f"start docs {unknown} are not in {train_dir}")
-    return simulate(config, train, test, [r for r in train if r.doc in start], start_docs=start, rounds=rounds,
+    return simulate(config, train, test, [r for r in train if r.doc in start], start_label=", ".join(start), rounds=rounds,
                     batch=batch, random_seeds=random_seeds, measure=measure, diversity=diversity, mode="exact")
 
 
@@ -190,7 +190,7 @@ def run_real_prose_study(
     rng = np.random.default_rng(start_seed)
     first = sorted(rng.choice(len(train), size=min(start_sentences, len(train)), replace=False).tolist())
     return simulate(config, train, test, [train[i] for i in first],
-                    start_docs=[f"{start_sentences} sentences drawn with seed {start_seed}"], rounds=rounds,
+                    start_label=f"{start_sentences} sentences drawn with seed {start_seed}", rounds=rounds,
                     batch=batch, random_seeds=random_seeds, measure=measure, diversity=diversity, mode="overlap")
 
 
@@ -227,7 +227,7 @@ def main() -> None:
                            max_iterations=args.max_iterations, **common)
         what = "demo_annotations/test (exact)"
         model = f"CRF trigger+role, max_iterations {args.max_iterations}"
-    print(f"start: {', '.join(result.start_docs)} ({result.labelled[0]} records); pool {result.pool_size} records "
+    print(f"start: {result.start} ({result.labelled[0]} records); pool {result.pool_size} records "
           f"(events hidden); test {result.test_size} records; batch {result.batch}; measure {result.measure}, "
           f"diversity {result.diversity}; {model}")
     print(f"role micro F1 on {what} after each round:\n")

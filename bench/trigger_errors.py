@@ -23,7 +23,7 @@ import argparse
 from collections import Counter
 from pathlib import Path
 from statistics import mean
-from typing import Callable
+from typing import Callable, Sequence
 
 from real_prose import REAL_PROSE, ROOT, real_prose_records
 
@@ -44,11 +44,16 @@ def group_of(features: dict) -> str:
         str(features.get("rule_trigger")), "not listed")
 
 
-def token_f1(points: list[tuple[float, bool, str, float]], gold: int, threshold: dict[str, float]) -> float:
-    """Token-level trigger F1 with one threshold per group (each point's own fold threshold ignored)."""
-    tp = sum(1 for p, is_gold, group, _ in points if is_gold and p >= threshold[group])
-    fp = sum(1 for p, is_gold, group, _ in points if not is_gold and p >= threshold[group])
+def f1_at(points: list[tuple[float, bool, str, float]], gold: int, thresholds: Sequence[float]) -> float:
+    """Token-level trigger F1 with one threshold per point (each point's own fold threshold ignored)."""
+    tp = sum(1 for (p, is_gold, _, _), t in zip(points, thresholds) if is_gold and p >= t)
+    fp = sum(1 for (p, is_gold, _, _), t in zip(points, thresholds) if not is_gold and p >= t)
     return prf(tp, fp, gold - tp)[2]
+
+
+def token_f1(points: list[tuple[float, bool, str, float]], gold: int, threshold: dict[str, float]) -> float:
+    """Token-level trigger F1 with one threshold per group."""
+    return f1_at(points, gold, [threshold[group] for _, _, group, _ in points])
 
 
 def smoothed_threshold(scores: dict[float, float]) -> float:
@@ -145,9 +150,8 @@ def main() -> None:
     print("token-level F1 with the threshold read off each fold's inner-fold curve:")
     for name, read in READINGS:
         chosen = [read(curve) for curve in curves]
-        tp = sum(1 for (p, is_gold, _, _), k in zip(points, fold_of) if is_gold and p >= chosen[k])
-        fp = sum(1 for (p, is_gold, _, _), k in zip(points, fold_of) if not is_gold and p >= chosen[k])
-        print(f"  {name:42} {prf(tp, fp, total_gold - tp)[2]:.3f} (thresholds " + ", ".join(f"{t:g}" for t in chosen) + ")")
+        f1 = f1_at(points, total_gold, [chosen[k] for k in fold_of])
+        print(f"  {name:42} {f1:.3f} (thresholds " + ", ".join(f"{t:g}" for t in chosen) + ")")
 
 
 if __name__ == "__main__":
