@@ -78,6 +78,7 @@ class ModelConfig:
     iterations: int = 150  # CRF: most training iterations
     regularisation: float = 1.0  # logistic: strength of the L2 penalty (the library's C is 1 / regularisation)
     balance_classes: bool = False  # logistic: weight classes inversely to their frequency
+    tree_share: float = 0.0  # logistic triggers: share of a gradient-boosted tree model in the tag probabilities
     threshold: float = 0.5
     tune_threshold: bool = False  # trigger stage: decide tokens by probability, threshold chosen on inner folds
     grid: dict[str, list[Any]] = field(default_factory=dict)  # values to try for each key, chosen on inner folds
@@ -253,11 +254,18 @@ def check_value(path: str, value: Any, source: str) -> None:
                           "only the trigger stage tunes a decision threshold; set it under [trigger_model]")
     if path.endswith(".grid"):
         _check_grid(path, value, source)
+    if path.endswith(".tree_share") and not 0.0 <= value <= 1.0:
+        raise ConfigError(f"{source}: '{path}' must lie in [0, 1], got {value}",
+                          "the trees' share of the blended trigger probability: 0 for none, 0.5 for a plain average")
+    if path == "role_model.tree_share" and value:
+        raise ConfigError(f"{source}: 'role_model.tree_share' is not supported",
+                          "only the logistic trigger stage blends in trees; set it under [trigger_model]")
     if path.endswith(("threshold", "target_precision")) and not 0.0 <= value <= 1.0:
         raise ConfigError(f"{source}: '{path}' must lie in [0, 1], got {value}", "a probability threshold")
 
 
-SEARCHABLE = ("l1_penalty", "l2_penalty", "optimiser", "iterations", "regularisation", "balance_classes", "threshold")
+SEARCHABLE = ("l1_penalty", "l2_penalty", "optimiser", "iterations", "regularisation", "balance_classes", "threshold",
+              "tree_share")
 
 
 def _check_grid(path: str, grid: dict[str, Any], source: str) -> None:
@@ -275,7 +283,12 @@ def _check_grid(path: str, grid: dict[str, Any], source: str) -> None:
 
 def config_from_dict(data: dict[str, Any], source: str = "<config>") -> ExperimentConfig:
     """Build and validate a config from already parsed TOML data."""
-    return _build(ExperimentConfig, data, "", source)
+    config = _build(ExperimentConfig, data, "", source)
+    trigger = config.trigger_model
+    if trigger.kind != "logistic" and (trigger.tree_share or "tree_share" in trigger.grid):
+        raise ConfigError(f"{source}: 'trigger_model.tree_share' is set but the trigger stage is '{trigger.kind}'",
+                          "only the logistic trigger stage blends in trees: set kind = \"logistic\" or drop tree_share")
+    return config
 
 
 def load_config(path: Path | str) -> ExperimentConfig:

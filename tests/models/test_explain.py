@@ -62,6 +62,14 @@ def test_logistic_weights_of_two_classes_are_opposite_and_planted_feature_leads(
     assert explained.labels["T"]["for"][0][1] == pytest.approx(tagger.model_.coef_[0][column], abs=1e-6)
 
 
+def test_blended_trees_are_named_in_a_note_beside_the_logistic_weights() -> None:
+    plain = explain_stage("trigger", SimpleNamespace(tagger=LogisticTagger().fit(X, Y)))
+    blended = explain_stage("trigger", SimpleNamespace(tagger=LogisticTagger(tree_share=0.5).fit(X, Y)))
+    assert plain.note == ""
+    assert "gradient-boosted trees (share 0.5)" in blended.note and "logistic model's part" in blended.note
+    assert blended.labels == plain.labels  # the logistic part is fitted the same way with or without trees
+
+
 def test_rule_stages_say_they_learned_nothing_and_top_must_be_positive(crf) -> None:
     explained = explain_stage("trigger", RuleTriggerFinder(lexicons=None))
     assert explained.labels == {} and "no learned weights" in explained.note

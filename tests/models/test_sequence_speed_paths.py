@@ -104,4 +104,4 @@ def test_a_pickled_tagger_keeps_its_state_names_and_predicts_the_same() -> None:
     loaded = pickle.loads(pickle.dumps(tagger))
     assert loaded.token_distributions(X) == before
     # Predicting stores nothing on the estimator: model files keep the attributes they had.
-    assert sorted(k for k in vars(loaded) if k.endswith("_")) == fitted_state == ["labels_", "model_", "vectorizer_"]
+    assert sorted(k for k in vars(loaded) if k.endswith("_")) == fitted_state == ["labels_", "model_", "trees_", "vectorizer_"]

@@ -109,8 +109,12 @@ def explain_stage(stage_name: str, stage: Any, *, top: int = 10) -> StageExplana
     kind, read = reader
     weights, transitions = read(estimator)
     ranked = sorted(transitions, key=lambda t: (-abs(t[2]), t[0], t[1]))
+    note = ""
+    if getattr(estimator, "trees_", None) is not None:
+        note = (f"the probabilities blend in gradient-boosted trees (share {estimator.tree_share:g}), which have no "
+                "weights per feature: the weights below are the logistic model's part")
     return StageExplanation(stage_name, kind, {label: _strongest(w, top) for label, w in sorted(weights.items())},
-                            [(a, b, round(w, DIGITS)) for a, b, w in ranked[:top]])
+                            [(a, b, round(w, DIGITS)) for a, b, w in ranked[:top]], note)
 
 
 def explain_extractor(trained: TrainedExtractor, *, top: int = 10) -> list[StageExplanation]:

@@ -90,7 +90,8 @@ def _logistic_trigger_finder(config: ModelConfig, featurizer: Featurizer) -> Tri
     from trainer.models.sequence import LogisticTagger
     from trainer.models.stages import SequenceTriggerFinder
 
-    return SequenceTriggerFinder(LogisticTagger(**logistic_settings(config), threshold=config.threshold), featurizer)
+    return SequenceTriggerFinder(LogisticTagger(**logistic_settings(config), threshold=config.threshold,
+                                                tree_share=config.tree_share), featurizer)
 
 
 def _logistic_role_labeller(config: ModelConfig, featurizer: Featurizer) -> RoleLabeller:

@@ -3,7 +3,10 @@
 Both take ``X`` as a list of sentences, each a list of feature dicts (one per
 token), and ``y`` as a list of BIO tag lists of the same shape. Both give, for
 each predicted span, a probability: the CRF's mean marginal of the span's
-tags, the logistic model's mean probability of the tokens' tags.
+tags, the logistic model's mean probability of the tokens' tags. The logistic
+model can blend in a gradient-boosted tree model over a few categorical token
+features (:class:`TokenTrees`), which reads combinations of them that a
+linear model cannot.
 """
 
 from __future__ import annotations
@@ -17,6 +20,7 @@ import pycrfsuite
 import scipy.sparse as sp
 import sklearn_crfsuite
 from sklearn.base import BaseEstimator
+from sklearn.ensemble import HistGradientBoostingClassifier
 from sklearn.feature_extraction import DictVectorizer
 from sklearn.linear_model import LogisticRegression
 
@@ -177,21 +181,107 @@ class CRFTagger(BaseEstimator):
         return out
 
 
+# The token features the tree model reads, one categorical column each (a key a token lacks reads as "-"): the
+# word, its syntax, the lexicons' and the rules' decisions, WordNet classes and the nearest neighbours. Plus, per
+# prefix of TREE_COUNTS, how many of the token's keys start with it (its particles, its prepositional children).
+TREE_FEATURES = ("lemma", "suffix", "pos", "tag", "dep", "ent_type", "head_lemma", "head_pos", "gov_prep",
+                 "passive_verb", "verb_class", "noun_class", "prep_cue", "rule_trigger", "rule_blocked", "rule_class",
+                 "rule_args", "wn_first", "wn_subject", "wn_object", "-1:lower", "+1:lower", "-1:pos", "+1:pos",
+                 "-1:dep", "+1:dep", "-1:rule_trigger", "+1:rule_trigger")
+TREE_COUNTS = ("child_prt=", "child_prep=")
+TREE_CATEGORIES = 250  # most frequent training values kept per feature; the others (and unseen ones) share one code
+
+
+class TokenTrees(BaseEstimator):
+    """Gradient-boosted trees (scikit-learn's histogram boosting) giving each token's probability of a positive tag.
+
+    Each of :data:`TREE_FEATURES` becomes one categorical column, coded by its
+    :data:`TREE_CATEGORIES` most frequent training values; the trees split on
+    sets of values, so they learn combinations (a light verb with this object
+    class, a listed verb the rules blocked) without the feature conjunctions a
+    linear model needs. Early stopping on a tenth of the training tokens ends
+    the boosting (scikit-learn's default for this size).
+    """
+
+    def __init__(self, *, rounds: int = 500, learning_rate: float = 0.05, random_state: int = 0) -> None:
+        self.rounds = rounds
+        self.learning_rate = learning_rate
+        self.random_state = random_state
+
+    def _matrix(self, rows: Sequence[Mapping[str, Any]]) -> np.ndarray:
+        """One row per token: the code of each :data:`TREE_FEATURES` value, then the :data:`TREE_COUNTS`."""
+        other, columns = TREE_CATEGORIES, []
+        for key, codes in zip(TREE_FEATURES, self.codes_):
+            code = codes.get
+            columns.append([code(value if type(value) is str else str(value), other)
+                            for value in (row.get(key, "-") for row in rows)])
+        # Counting keys by prefix in one joined string per row: the same counts as testing each key, far quicker.
+        joined = ["\n" + "\n".join(row) for row in rows]
+        columns += [[names.count("\n" + prefix) for names in joined] for prefix in TREE_COUNTS]
+        return np.asarray(columns, dtype=float).T.reshape(len(rows), len(columns))
+
+    def fit(self, rows: Sequence[Mapping[str, Any]], positive: Sequence[bool]) -> "TokenTrees":
+        self.codes_ = []
+        for key in TREE_FEATURES:
+            counts: dict[str, int] = {}
+            for row in rows:
+                value = str(row.get(key, "-"))
+                counts[value] = counts.get(value, 0) + 1
+            ranked = sorted(counts, key=lambda value: (-counts[value], value))[:TREE_CATEGORIES]
+            self.codes_.append({value: code for code, value in enumerate(ranked)})
+        self.model_ = HistGradientBoostingClassifier(
+            categorical_features=list(range(len(TREE_FEATURES))), max_iter=self.rounds,
+            learning_rate=self.learning_rate, max_leaf_nodes=31, l2_regularization=1.0, random_state=self.random_state)
+        self.model_.fit(self._matrix(rows), np.asarray(positive, dtype=bool))
+        return self
+
+    def positive_probability(self, rows: Sequence[Mapping[str, Any]]) -> np.ndarray:
+        """Each row's probability of a positive tag."""
+        if not hasattr(self, "model_"):
+            raise NotFittedError("these TokenTrees are not fitted yet", "call fit before predicting")
+        if not rows:
+            return np.zeros(0)
+        return self.model_.predict_proba(self._matrix(rows))[:, list(self.model_.classes_).index(True)]
+
+
+def blend_positive(probs: np.ndarray, labels: Sequence[str], trees: np.ndarray, share: float) -> np.ndarray:
+    """Tag probabilities whose positive mass (every tag but ``O``) is mixed with the trees' probability.
+
+    The positive mass becomes ``(1 - share) * (1 - p(O)) + share * trees``; it
+    is shared among the positive tags as the logistic model shares it, and ``O``
+    gets the rest.
+    """
+    outside = labels.index("O")
+    positive = 1.0 - probs[:, outside]
+    mixed = (1.0 - share) * positive + share * trees
+    scale = np.divide(mixed, positive, out=np.zeros_like(mixed), where=positive > 0)
+    out = probs * scale[:, None]
+    out[:, outside] = 1.0 - mixed
+    return out
+
+
 class LogisticTagger(BaseEstimator):
-    """Per-token logistic regression over BIO tags (no transitions); a simpler, faster alternative."""
+    """Per-token logistic regression over BIO tags (no transitions); a simpler, faster alternative.
+
+    ``tree_share`` above 0 also fits :class:`TokenTrees` on whether each token
+    has a positive tag and blends their probability into the positive tags'
+    (:func:`blend_positive`): 0.5 is a plain average of the two models.
+    """
 
     def __init__(self, *, C: float = 1.0, class_weight: str = "none", max_iterations: int = 1000,
-                 threshold: float = 0.0, random_state: int = 0) -> None:
+                 threshold: float = 0.0, random_state: int = 0, tree_share: float = 0.0) -> None:
         self.C = C
         self.class_weight = class_weight
         self.max_iterations = max_iterations
         self.threshold = threshold
         self.random_state = random_state
+        self.tree_share = tree_share
 
     def fit(self, X: Sequence[Sentence], y: Sequence[list[str]]) -> "LogisticTagger":
         _check_shapes(X, y)
         self.vectorizer_ = DictVectorizer(sort=True)
-        matrix = self.vectorizer_.fit_transform([f for sentence in X for f in sentence])
+        rows = [f for sentence in X for f in sentence]
+        matrix = self.vectorizer_.fit_transform(rows)
         labels = [t for tags in y for t in tags]
         self.model_ = LogisticRegression(
             C=self.C, class_weight=None if self.class_weight == "none" else self.class_weight,
@@ -199,6 +289,9 @@ class LogisticTagger(BaseEstimator):
         )
         self.model_.fit(matrix, labels)
         self.labels_ = list(self.model_.classes_)
+        positive = [label != "O" for label in labels]
+        self.trees_ = (TokenTrees(random_state=self.random_state).fit(rows, positive)
+                       if self.tree_share > 0 and "O" in self.labels_ and any(positive) else None)
         return self
 
     def token_distributions(self, X: Sequence[Sentence]) -> list[list[dict[str, float]]]:
@@ -209,6 +302,9 @@ class LogisticTagger(BaseEstimator):
         if not flat:
             return [[] for _ in X]
         probs = self.model_.predict_proba(vectorize(self.vectorizer_, flat))
+        trees = getattr(self, "trees_", None)  # absent in model files written before the trees
+        if trees is not None:
+            probs = blend_positive(probs, self.labels_, trees.positive_probability(flat), self.tree_share)
         rows = [dict(zip(self.labels_, row)) for row in probs.tolist()]
         out, position = [], 0
         for sentence in X:
