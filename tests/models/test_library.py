@@ -179,3 +179,25 @@ def test_the_recommended_dask_worker_settings_reach_the_workers():
         os.environ.clear()
         os.environ.update(saved)
         dask.config.refresh()
+
+
+def _threads_seen() -> tuple[int, list[int]]:
+    """What scikit-learn's OpenMP code and the loaded native thread pools would use in this process."""
+    from sklearn.utils._openmp_helpers import _openmp_effective_n_threads
+    from threadpoolctl import threadpool_info
+
+    return _openmp_effective_n_threads(), [pool["num_threads"] for pool in threadpool_info()]
+
+
+def test_library_workers_run_native_code_on_one_thread_each():
+    """The workers of `extract --jobs N` start with single_threaded, as Dask's nannies set OMP_NUM_THREADS=1 for
+    theirs (distributed.yaml, nanny.pre-spawn-environ): N workers on N cores, never N x N threads.
+    _openmp_effective_n_threads is scikit-learn's own reading of the OpenMP thread count."""
+    from concurrent.futures import ProcessPoolExecutor
+    from multiprocessing import get_context
+
+    from trainer.models.library import single_threaded
+
+    with ProcessPoolExecutor(max_workers=1, mp_context=get_context("spawn"), initializer=single_threaded) as pool:
+        openmp, pools = pool.submit(_threads_seen).result()
+    assert openmp == 1 and pools and set(pools) == {1}

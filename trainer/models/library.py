@@ -18,6 +18,7 @@ file, and the rest are extracted.
 from __future__ import annotations
 
 import json
+import os
 import time
 from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
 from dataclasses import dataclass, field
@@ -180,9 +181,28 @@ def _serial(model_path: str, books: Sequence[Book], options: dict[str, Any]) -> 
         _LOADED.clear()  # the caller's process keeps neither the model nor the parser after the run
 
 
+# Native thread pools a worker must keep to one thread (OpenMP: the trigger stage's trees; BLAS: NumPy).
+THREAD_VARIABLES = ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS")
+
+
+def single_threaded() -> None:
+    """Make this worker process use one thread for native code, as Dask's nannies make theirs.
+
+    Each worker extracts one book at a time; left alone, scikit-learn's OpenMP
+    code would start a thread per core in every worker, and N workers on N
+    cores would contend for them (measured: ``--jobs 2`` took 31.2 s against
+    33.8 s for ``--jobs 1``, with 61.5 s of CPU against 34.8 s). The
+    variables cover libraries loaded later; ``threadpoolctl`` those loaded already.
+    """
+    from threadpoolctl import threadpool_limits
+
+    os.environ.update({name: "1" for name in THREAD_VARIABLES})
+    threadpool_limits(limits=1)
+
+
 def _processes(model_path: str, books: Sequence[Book], options: dict[str, Any], jobs: int) -> Iterator[BookResult]:
     # spawn, not fork: the parent may run a progress thread, and each worker loads its own parser anyway
-    with ProcessPoolExecutor(max_workers=jobs, mp_context=get_context("spawn")) as pool:
+    with ProcessPoolExecutor(max_workers=jobs, mp_context=get_context("spawn"), initializer=single_threaded) as pool:
         pending = {pool.submit(extract_book, model_path, book, **options) for book in books}
         while pending:
             done, pending = wait(pending, return_when=FIRST_COMPLETED)
