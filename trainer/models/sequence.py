@@ -12,6 +12,7 @@ linear model cannot.
 from __future__ import annotations
 
 from array import array
+from collections import Counter
 from typing import Any, Mapping, Sequence
 from weakref import WeakKeyDictionary
 
@@ -192,6 +193,12 @@ TREE_COUNTS = ("child_prt=", "child_prep=")
 TREE_CATEGORIES = 250  # most frequent training values kept per feature; the others (and unseen ones) share one code
 
 
+def _tree_values(rows: Sequence[Mapping[str, Any]]) -> list[list[str]]:
+    """Per :data:`TREE_FEATURES` key, each row's value as a string ("-" where the row lacks the key)."""
+    return [[value if type(value) is str else str(value) for value in (row.get(key, "-") for row in rows)]
+            for key in TREE_FEATURES]
+
+
 class TokenTrees(BaseEstimator):
     """Gradient-boosted trees (scikit-learn's histogram boosting) giving each token's probability of a positive tag.
 
@@ -208,31 +215,30 @@ class TokenTrees(BaseEstimator):
         self.learning_rate = learning_rate
         self.random_state = random_state
 
-    def _matrix(self, rows: Sequence[Mapping[str, Any]]) -> np.ndarray:
-        """One row per token: the code of each :data:`TREE_FEATURES` value, then the :data:`TREE_COUNTS`."""
-        other, columns = TREE_CATEGORIES, []
-        for key, codes in zip(TREE_FEATURES, self.codes_):
-            code = codes.get
-            columns.append([code(value if type(value) is str else str(value), other)
-                            for value in (row.get(key, "-") for row in rows)])
+    def _matrix(self, rows: Sequence[Mapping[str, Any]], values: list[list[str]] | None = None) -> np.ndarray:
+        """One row per token: the code of each :data:`TREE_FEATURES` value, then the :data:`TREE_COUNTS`.
+
+        ``values`` is :func:`_tree_values` of ``rows`` when the caller has read them already.
+        """
+        values = _tree_values(rows) if values is None else values
+        other = TREE_CATEGORIES
+        columns = [[codes.get(value, other) for value in column] for codes, column in zip(self.codes_, values)]
         # Counting keys by prefix in one joined string per row: the same counts as testing each key, far quicker.
         joined = ["\n" + "\n".join(row) for row in rows]
         columns += [[names.count("\n" + prefix) for names in joined] for prefix in TREE_COUNTS]
         return np.asarray(columns, dtype=float).T.reshape(len(rows), len(columns))
 
     def fit(self, rows: Sequence[Mapping[str, Any]], positive: Sequence[bool]) -> "TokenTrees":
+        values = _tree_values(rows)
         self.codes_ = []
-        for key in TREE_FEATURES:
-            counts: dict[str, int] = {}
-            for row in rows:
-                value = str(row.get(key, "-"))
-                counts[value] = counts.get(value, 0) + 1
+        for column in values:
+            counts = Counter(column)
             ranked = sorted(counts, key=lambda value: (-counts[value], value))[:TREE_CATEGORIES]
             self.codes_.append({value: code for code, value in enumerate(ranked)})
         self.model_ = HistGradientBoostingClassifier(
             categorical_features=list(range(len(TREE_FEATURES))), max_iter=self.rounds,
             learning_rate=self.learning_rate, max_leaf_nodes=31, l2_regularization=1.0, random_state=self.random_state)
-        self.model_.fit(self._matrix(rows), np.asarray(positive, dtype=bool))
+        self.model_.fit(self._matrix(rows, values), np.asarray(positive, dtype=bool))
         return self
 
     def positive_probability(self, rows: Sequence[Mapping[str, Any]]) -> np.ndarray:
@@ -289,9 +295,11 @@ class LogisticTagger(BaseEstimator):
         )
         self.model_.fit(matrix, labels)
         self.labels_ = list(self.model_.classes_)
-        positive = [label != "O" for label in labels]
-        self.trees_ = (TokenTrees(random_state=self.random_state).fit(rows, positive)
-                       if self.tree_share > 0 and "O" in self.labels_ and any(positive) else None)
+        self.trees_ = None
+        if self.tree_share > 0 and "O" in self.labels_:
+            positive = [label != "O" for label in labels]
+            if any(positive):
+                self.trees_ = TokenTrees(random_state=self.random_state).fit(rows, positive)
         return self
 
     def token_distributions(self, X: Sequence[Sentence]) -> list[list[dict[str, float]]]:
