@@ -241,6 +241,19 @@ def test_a_missing_auxiliary_corpus_is_refused_before_any_work(tmp_path):
     assert result.exit_code == 2 and "no packaged corpus named 'atlas'" in result.output
 
 
+def test_the_auxiliary_line_of_fit_says_whether_features_were_augmented():
+    from trainer.cli import _auxiliary_line
+
+    used = {"name": "demo", "source": "packaged:demo", "records": 792, "left_out_shared_with_target": 656,
+            "role_spans_left_out": {"vehicle": 3}}
+    plain = _auxiliary_line(used, augmented=False)
+    assert plain.startswith("auxiliary corpus 'demo' (packaged:demo): 792 record(s) joined training, 656 left out")
+    assert "role spans outside the inventory left out: vehicle 3" in plain
+    assert "not augmented" in plain and "--augment" in plain and "docs/real-prose.md" in plain
+    augmented = _auxiliary_line(used, augmented=True)
+    assert augmented.endswith("; features augmented by corpus") and "not augmented" not in augmented
+
+
 def test_a_wrong_mode_or_conflicting_configs_stop_crossval_before_any_work(tmp_path, demo_train, monkeypatch):
     from trainer.experiment import crossval as crossval_module
 

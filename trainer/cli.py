@@ -219,7 +219,9 @@ def _auxiliary_line(used: dict, *, augmented: bool) -> str:
     return (f"auxiliary corpus '{used['name']}' ({used['source']}): {used['records']} record(s) joined training, "
             f"{used['left_out_shared_with_target']} left out (doc or id shared with the training corpus)"
             + (f"; role spans outside the inventory left out: {outside}" if outside else "")
-            + ("; features augmented by corpus" if augmented else ""))
+            + ("; features augmented by corpus" if augmented else
+               "; not augmented (if your annotation departs from its conventions, --augment lets yours win: "
+               "docs/real-prose.md)"))
 
 
 @app.command()
