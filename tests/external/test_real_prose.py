@@ -97,3 +97,23 @@ def test_sentences_joined_into_passages_keep_every_annotation() -> None:
     # Scored against themselves, the passages are perfect (the scorer sees well-formed records).
     scores = count_corpus(passages, passages, roles=("mover", "source", "path", "destination"), mode="exact").scores()
     assert scores.micro.f1 == 1.0 and scores.trigger.f1 == 1.0
+
+
+def test_relabelling_under_other_conventions_changes_only_what_it_names() -> None:
+    from trainer.corpus.records import Event, Record, RoleSpan
+
+    bench = load_bench("real_prose")
+    text = "We halted at Brenn, and the mule that carried the salt left Caddow."
+    left = Event((55, 59), (RoleSpan("mover", (24, 32)), RoleSpan("source", (60, 66))))
+    by_pronoun = Event((55, 59), (RoleSpan("mover", (33, 37)),))
+    record = Record("b-1-s1", "b-1", text, (left, by_pronoun))
+    # Hand-built: `that` (33-37) is a relative-pronoun mover, `the mule` (24-32) is not; `halted` (3-9) is no gold trigger.
+    same, changed = bench.relabelled([record], frozenset(), frozenset())
+    assert same == [record] and changed == 0
+    fewer, changed = bench.relabelled([record], bench.THIRD_PERSON, frozenset())
+    assert changed == 1 and fewer[0].events == (left, Event((55, 59), ()))
+    more, changed = bench.relabelled([record], frozenset(), frozenset({"halted", "left"}))
+    # `left` already overlaps a gold trigger, so only `halted` is added, in text order, without roles.
+    assert changed == 1 and more[0].events == (Event((3, 9)), left, by_pronoun)
+    assert [record.span_text(span) for span in ((24, 32), (33, 37), (55, 59), (60, 66), (3, 9))] == [
+        "the mule", "that", "left", "Caddow", "halted"]
