@@ -86,6 +86,9 @@ class MotionExtractor:
         self.domains_: list[str] = []
         self.threshold_scores_: dict[float, float] = {}
         self.confidence_: ConfidencePolicy | None = None
+        # A role's confidence is that of the whole instance (trigger, role, span): see raw_predictions.
+        # Model files written before it lack the attribute and keep the role stage's own confidence.
+        self.joint_role_confidence_ = True
 
     def _search(self, records: Sequence[Record], docs: Sequence[Doc], targets: GoldTargets) -> None:
         def trigger_f1(candidate: ModelConfig, train: list[int], test: list[int]) -> float:
@@ -208,14 +211,25 @@ class MotionExtractor:
 
     def raw_predictions(self, docs: Sequence[Doc], gold: Sequence[list[tuple[int, int]]] | None = None
                         ) -> tuple[list[list[tuple[int, int, float]]], list[list[list[tuple[int, int, str, float]]]]]:
-        """Both stages' token-range predictions with their own confidences, before any ``[confidence]`` policy
-        (``gold``: label the roles of these gold triggers instead of predicted ones)."""
+        """Both stages' token-range predictions with confidences, before any ``[confidence]`` policy
+        (``gold``: label the roles of these gold triggers instead of predicted ones).
+
+        A trigger's confidence is the trigger stage's. A role's is the confidence that the whole role
+        instance is right, as it is scored: the role stage's confidence in the span and role given the
+        trigger, times the trigger's confidence (a role on a wrong trigger is wrong). Given gold
+        triggers (confidence 1) it is the role stage's own.
+        """
         features = self.prediction_features(docs)
         if gold is not None:
             triggers = [[(f, e, 1.0) for f, e in ts] for ts in gold]
         else:
             triggers = self.trigger_finder.predict(docs, features)
-        return triggers, self.role_labeller.predict(docs, triggers, features)
+        roles = self.role_labeller.predict(docs, triggers, features)
+        if getattr(self, "joint_role_confidence_", False):
+            roles = [[[(f, e, role, q * trigger[2]) for f, e, role, q in arguments]
+                      for trigger, arguments in zip(sentence_triggers, sentence_roles)]
+                     for sentence_triggers, sentence_roles in zip(triggers, roles)]
+        return triggers, roles
 
     def predict(self, records: Sequence[Record], docs: Sequence[Doc], *, gold_triggers: bool = False) -> list[Record]:
         """Records carrying predicted events with confidences (``gold_triggers``: label roles of the gold triggers).
