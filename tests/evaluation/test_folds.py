@@ -59,8 +59,9 @@ def test_later_repeats_differ_even_when_every_doc_has_its_own_size() -> None:
 def test_grouped_kfold_refusals_quote_the_numbers() -> None:
     with pytest.raises(ConfigError) as info:
         grouped_kfold(DOCS, 7, seed=13)
-    assert str(info.value) == ("cannot have number of splits n_splits=7 greater than the number of docs: 6\n"
-                               "  fix: use at most 6 folds (folds never split a doc), or leave_one_doc_out")
+    assert str(info.value) == ("7 folds asked for, but the corpus has only 6 docs and folds never split a doc\n"
+                               "  fix: use at most 6 folds (--folds 6, or [evaluation] folds in the config), "
+                               "or one fold per doc (crossval --leave-one-doc-out)")
     with pytest.raises(ConfigError, match=r"^n_splits must be at least 2, got 1"):
         grouped_kfold(DOCS, 1, seed=13)
     with pytest.raises(ConfigError, match=r"^repeats must be at least 1, got 0"):

@@ -68,7 +68,8 @@ def grouped_kfold(docs: Sequence[str], n_splits: int, *, seed: int, repeats: int
     repeating is for.
     """
     if n_splits < 2:
-        raise ConfigError(f"n_splits must be at least 2, got {n_splits}", "use 2 or more folds, or fixed_split")
+        raise ConfigError(f"n_splits must be at least 2, got {n_splits}",
+                          "use 2 or more folds (--folds), or evaluate on a fixed split (--test)")
     if repeats < 1:
         raise ConfigError(f"repeats must be at least 1, got {repeats}", "use 1 for a single cross-validation")
     sizes = Counter(docs)
@@ -78,8 +79,9 @@ def grouped_kfold(docs: Sequence[str], n_splits: int, *, seed: int, repeats: int
                           "add documents, or evaluate on a fixed split (--test)")
     if n_splits > len(groups):
         raise ConfigError(
-            f"cannot have number of splits n_splits={n_splits} greater than the number of docs: {len(groups)}",
-            f"use at most {len(groups)} folds (folds never split a doc), or leave_one_doc_out",
+            f"{n_splits} folds asked for, but the corpus has only {len(groups)} docs and folds never split a doc",
+            f"use at most {len(groups)} folds (--folds {len(groups)}, or [evaluation] folds in the config), "
+            "or one fold per doc (crossval --leave-one-doc-out)",
         )
     rng = np.random.default_rng(seed)
     plans = []
