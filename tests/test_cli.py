@@ -280,3 +280,25 @@ def test_fit_refuses_a_bad_confidence_option_before_training(tmp_path, demo_trai
     assert result.exit_code == 2
     assert option in result.output and named in result.output and "Traceback" not in result.output
     assert not model.exists()
+
+
+def test_itinerary_with_a_confidence_floor_says_what_it_left_out(tmp_path):
+    extracted = tmp_path / "extracted.jsonl"
+    extracted.write_text(json.dumps({
+        "id": "log-s001", "doc": "log", "text": "We left Caddow and rode to Kell Ferry.",
+        "events": [{"trigger": [3, 7], "confidence": 0.9, "roles": [{"role": "mover", "span": [0, 2], "confidence": 0.8},
+                                                                    {"role": "source", "span": [8, 14], "confidence": 0.45}]},
+                   {"trigger": [19, 23], "confidence": 0.4, "roles": [{"role": "destination", "span": [27, 37], "confidence": 0.3}]}],
+    }) + "\n", encoding="utf-8")
+    result = runner.invoke(app, ["itinerary", str(extracted), "-o", str(tmp_path / "it.csv"), "--min-confidence", "0.5"])
+    assert result.exit_code == 0, result.output
+    assert "1 event(s) in 1 doc(s)" in result.output
+    assert "confidence floor 0.5: 1 event(s) and 1 role span(s) of kept events left out" in result.output
+    lines = (tmp_path / "it.csv").read_text(encoding="utf-8").splitlines()
+    assert lines[1] == "log,log-s001,1,1,We,left,,,,0.9,False,"
+    gold = tmp_path / "gold.jsonl"
+    gold.write_text(json.dumps({"id": "g-s001", "doc": "g", "text": "We left Caddow.",
+                                "events": [{"trigger": [3, 7], "roles": [{"role": "mover", "span": [0, 2]}]}]}) + "\n",
+                    encoding="utf-8")
+    result = runner.invoke(app, ["itinerary", str(gold), "-o", str(tmp_path / "g.csv"), "--min-confidence", "0.5"])
+    assert result.exit_code == 0 and "no event carries a confidence (gold annotations?)" in result.output

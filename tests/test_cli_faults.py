@@ -134,6 +134,7 @@ CASES = {
         ("check {d}/c.jsonl --roles ,", "--roles ',': roles must not be empty"),
         ("score {d}/c.jsonl {d}/c.jsonl --roles mover,mover", "roles must not repeat"),
         ("agree {d}/c.jsonl {d}/c.jsonl --roles mover,trigger", "['trigger'] are reserved for score names"),
+        ("itinerary {d}/c.jsonl -o {d}/o.tsv --min-confidence 1.5", "must be a number from 0 to 1, got 1.5"),
     ],
 }
 

@@ -489,18 +489,25 @@ def itinerary(
     gazetteer: Annotated[Optional[Path], typer.Option(help="Places table: name, latitude, longitude, alternatives.")] = None,
     geojson: Annotated[Optional[Path], typer.Option(help="Write the route as GeoJSON (needs --gazetteer).")] = None,
     skip_bad: Annotated[bool, typer.Option(help="Leave out records with errors (listed) instead of refusing.")] = False,
+    min_confidence: Annotated[Optional[float], typer.Option(
+        metavar="P", help="Extracted records: leave out events and role spans whose confidence is below P (0 to 1).")] = None,
 ) -> None:
     """Turn events into an ordered itinerary per doc, and optionally a GeoJSON map of the route."""
     from trainer.experiment.itineraries import itinerary_files
 
     wanted = [m.strip() for m in movers.split(",") if m.strip()] if movers else None
     outcome = itinerary_files(records, output, movers=wanted, carry_mover=carry_mover, gazetteer=gazetteer,
-                              geojson=geojson, skip_bad=skip_bad)
+                              geojson=geojson, skip_bad=skip_bad, min_confidence=min_confidence)
     if outcome.skipped_note:
         say(outcome.skipped_note)
     route, mapped = outcome.itinerary, outcome.mapped
     say(f"{len(route.rows)} event(s) in {len(route.docs)} doc(s) written to {output}"
         + (f"; {route.left_out} left out by the mover filter" if route.left_out else ""))
+    if route.min_confidence is not None:
+        say(f"confidence floor {route.min_confidence:g}: {route.below_floor} event(s) and "
+            f"{route.roles_below_floor} role span(s) of kept events left out"
+            if route.with_confidence else
+            f"note: no event carries a confidence (gold annotations?): the floor {route.min_confidence:g} left out nothing")
     if mapped is not None:
         for note in mapped.notes:
             say(f"note: {note}")

@@ -156,3 +156,41 @@ def test_bad_movers_and_bad_table_name(tmp_path) -> None:
 def test_empty_filter_is_unfiltered() -> None:
     assert build_itinerary(RECORDS, movers=()).rows == build_itinerary(RECORDS).rows
     assert len(build_itinerary(RECORDS, movers=[]).rows) == 8
+
+
+def _with_confidences(record: Record, events: list[tuple[float, list[float]]]) -> Record:
+    """The record's events carrying these confidences: (event, [each role in stored order])."""
+    return record.with_events([
+        replace(event, confidence=p, roles=tuple(replace(role, confidence=q) for role, q in zip(event.roles, qs)))
+        for event, (p, qs) in zip(record.events, events)
+    ])
+
+
+def test_a_confidence_floor_leaves_out_weak_events_and_weak_roles_before_the_mover_filter() -> None:
+    first = rec("[We|mover1,mover2] [left|T1] [Caddow|source1] and [rode|T2] to [Kell Ferry|destination2].", "log-s001")
+    extracted = [
+        _with_confidences(first, [(0.9, [0.8, 0.45]), (0.4, [0.3, 0.35])]),
+        _with_confidences(rec("[Dicken|mover1] [rode|T1] to [Quillon|destination1].", "log-s002"), [(0.7, [0.2, 0.6])]),
+    ]
+    kept = build_itinerary(extracted, min_confidence=0.5)
+    frame = kept.to_frame()
+    # `rode` (0.4) goes with its roles; `Caddow` (0.45) and `Dicken` (0.2) go; the event numbers stay the record's.
+    assert frame[["id", "event", "mover", "trigger", "source", "destination"]].values.tolist() == [
+        ["log-s001", 1, "We", "left", "", ""],
+        ["log-s002", 1, "", "rode", "", "Quillon"],
+    ]
+    assert (kept.min_confidence, kept.below_floor, kept.roles_below_floor, kept.with_confidence) == (0.5, 1, 2, 3)
+    # The floor comes first: Dicken's event has lost its mover, so a filter on him drops it.
+    assert [r.record_id for r in build_itinerary(extracted, movers=["Dicken"], min_confidence=0.5).rows] == []
+    assert [r.record_id for r in build_itinerary(extracted, movers=["Dicken"]).rows] == ["log-s002"]
+    # A floor at 0 keeps everything; no floor gives the same rows.
+    assert build_itinerary(extracted, min_confidence=0).rows == build_itinerary(extracted).rows
+
+
+def test_a_confidence_floor_keeps_gold_records_and_refuses_numbers_outside_0_to_1() -> None:
+    gold = build_itinerary(RECORDS, min_confidence=0.99)
+    assert gold.rows == build_itinerary(RECORDS).rows and gold.with_confidence == 0 and gold.below_floor == 0
+    for bad in (1.5, -0.1, "0.5", True):
+        with pytest.raises(ConfigError) as caught:
+            build_itinerary(RECORDS, min_confidence=bad)
+        assert caught.value.cause == f"min_confidence (--min-confidence) must be a number from 0 to 1, got {bad!r}"

@@ -30,6 +30,13 @@ takes the movers of the previous event *of the same document* that has one
 This is a heuristic for elided subjects (``... and pushed on to Dunmarrow``)
 and is wrong when the previous event belongs to someone else.
 
+Confidence floor (``min_confidence``, extracted records): an event whose
+confidence is below it is left out, and so is every role span below it (a
+role's confidence is that of the whole role instance, trigger included, so it
+is never above its event's); spans and events without a confidence (gold) are
+kept. The floor applies before the mover filter: an event whose movers all
+fall below it has no mover.
+
 Example::
 
     >>> from trainer.corpus.convert.inline import parse_inline
@@ -42,7 +49,7 @@ from __future__ import annotations
 
 import math
 import re
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Iterable, Sequence
 
@@ -100,7 +107,10 @@ class Itinerary:
 
     ``movers`` is the filter as given (empty: unfiltered); ``left_out`` counts
     events of annotated records that the filter dropped; ``unannotated``
-    counts records with no ``events`` key (nothing to show).
+    counts records with no ``events`` key (nothing to show). With a confidence
+    floor, ``below_floor`` counts the events and ``roles_below_floor`` the role
+    spans of kept events it left out, and ``with_confidence`` the events that
+    carried a confidence at all (none: gold records, which the floor keeps).
     """
 
     rows: tuple[ItineraryRow, ...]
@@ -108,6 +118,10 @@ class Itinerary:
     carry_mover: bool = False
     left_out: int = 0
     unannotated: int = 0
+    min_confidence: float | None = None
+    below_floor: int = 0
+    roles_below_floor: int = 0
+    with_confidence: int = 0
 
     @property
     def docs(self) -> list[str]:
@@ -166,16 +180,33 @@ def _texts(record: Record, event: Event, role: str) -> tuple[str, ...]:
     return tuple(record.span_text(span) for span in event.spans_of(role))
 
 
+def check_min_confidence(min_confidence: float | None) -> float | None:
+    """The confidence floor, validated: None or a number in [0, 1]."""
+    if min_confidence is None:
+        return None
+    if isinstance(min_confidence, bool) or not isinstance(min_confidence, (int, float)) \
+            or not 0.0 <= float(min_confidence) <= 1.0:
+        raise ConfigError(f"min_confidence (--min-confidence) must be a number from 0 to 1, got {min_confidence!r}",
+                          "e.g. 0.5 keeps the events and roles the model gives at least an even chance")
+    return float(min_confidence)
+
+
+def _below(confidence: float | None, floor: float | None) -> bool:
+    return floor is not None and confidence is not None and confidence < floor
+
+
 def build_itinerary(
-    records: Iterable[Record], *, movers: Sequence[str] | str | None = None, carry_mover: bool = False
+    records: Iterable[Record], *, movers: Sequence[str] | str | None = None, carry_mover: bool = False,
+    min_confidence: float | None = None,
 ) -> Itinerary:
     """One row per event of the annotated records, grouped by document, in record order.
 
     ``records``: canonical records (gold or extracted); records without an
     ``events`` key are counted in ``unannotated`` and skipped. See the module
-    docstring for ``movers`` and ``carry_mover``.
+    docstring for ``movers``, ``carry_mover`` and ``min_confidence``.
     """
     entries = _mover_keys(movers)
+    floor = check_min_confidence(min_confidence)
     by_doc: dict[str, list[Record]] = {}
     unannotated = 0
     for record in records:
@@ -184,12 +215,19 @@ def build_itinerary(
             continue
         by_doc.setdefault(record.doc, []).append(record)
     rows: list[ItineraryRow] = []
-    left_out = 0
+    left_out = below_floor = roles_below_floor = with_confidence = 0
     for doc, doc_records in by_doc.items():
         previous: tuple[str, ...] = ()  # movers of the last event of this doc that had any
         order = 0
         for record in doc_records:
             for number, event in enumerate(record.events or (), start=1):
+                with_confidence += event.confidence is not None
+                if _below(event.confidence, floor):
+                    below_floor += 1
+                    continue
+                kept_roles = tuple(r for r in event.roles if not _below(r.confidence, floor))
+                roles_below_floor += len(event.roles) - len(kept_roles)
+                event = replace(event, roles=kept_roles)
                 own = _texts(record, event, MOVER)
                 carried = carry_mover and not own and bool(previous)
                 mover_texts = previous if carried else own
@@ -208,7 +246,8 @@ def build_itinerary(
                     confidence=event.confidence, mover_carried=carried, matched=matched,
                 ))
     return Itinerary(rows=tuple(rows), movers=entries, carry_mover=carry_mover, left_out=left_out,
-                     unannotated=unannotated)
+                     unannotated=unannotated, min_confidence=floor, below_floor=below_floor,
+                     roles_below_floor=roles_below_floor, with_confidence=with_confidence)
 
 
 def table_separator(path: Path) -> str:

@@ -7,7 +7,7 @@ from pathlib import Path
 from typing import Sequence
 
 from trainer.annotation.geo import MapResult, build_geojson, read_gazetteer, write_geojson
-from trainer.annotation.itinerary import Itinerary, build_itinerary, write_itinerary
+from trainer.annotation.itinerary import Itinerary, build_itinerary, check_min_confidence, write_itinerary
 from trainer.corpus.reader import expand_paths, read_corpus, skipped_summary
 from trainer.errors import ConfigError
 from trainer.outputs import check_output
@@ -25,11 +25,12 @@ class ItineraryOutcome:
 
 def itinerary_files(records: Sequence[Path], output: Path, *, movers: Sequence[str] | None = None,
                     carry_mover: bool = False, gazetteer: Path | None = None, geojson: Path | None = None,
-                    skip_bad: bool = False) -> ItineraryOutcome:
+                    skip_bad: bool = False, min_confidence: float | None = None) -> ItineraryOutcome:
     """Write the itinerary table of the records' events and, with a gazetteer, the route as GeoJSON.
 
-    Every output is checked before anything is read.
+    Settings and every output are checked before anything is read.
     """
+    check_min_confidence(min_confidence)
     if bool(gazetteer) != bool(geojson):
         raise ConfigError("--gazetteer and --geojson go together", "give both to write a map, or neither")
     inputs = [*records, *expand_paths(records), *([gazetteer] if gazetteer else [])]
@@ -37,7 +38,8 @@ def itinerary_files(records: Sequence[Path], output: Path, *, movers: Sequence[s
     if geojson:
         check_output(geojson, inputs=[*inputs, output], what="GeoJSON file")
     corpus = read_corpus(records, skip_bad=skip_bad)
-    route = build_itinerary(corpus.records, movers=list(movers) if movers else None, carry_mover=carry_mover)
+    route = build_itinerary(corpus.records, movers=list(movers) if movers else None, carry_mover=carry_mover,
+                            min_confidence=min_confidence)
     write_itinerary(route, output)
     mapped = None
     if gazetteer and geojson:
