@@ -302,3 +302,21 @@ def test_itinerary_with_a_confidence_floor_says_what_it_left_out(tmp_path):
                     encoding="utf-8")
     result = runner.invoke(app, ["itinerary", str(gold), "-o", str(tmp_path / "g.csv"), "--min-confidence", "0.5"])
     assert result.exit_code == 0 and "no event carries a confidence (gold annotations?)" in result.output
+
+
+def test_fit_reports_the_tuned_trigger_threshold_and_keeps_it_in_the_metadata(tmp_path, demo_train):
+    config = tmp_path / "tuned.toml"
+    config.write_text(f'[parser]\ncache_dir = "{tmp_path / "cache"}"\n'
+                      '[trigger_model]\nkind = "logistic"\ntune_threshold = true\n'
+                      '[role_model]\nkind = "logistic"\n', encoding="utf-8")
+    model = tmp_path / "m.itin"
+    files = [str(demo_train / f"quarne-salt-{n}.jsonl") for n in (1, 2)]
+    fitted = runner.invoke(app, ["fit", *files, "-c", str(config), "-o", str(model)])
+    assert fitted.exit_code == 0, fitted.output
+    from trainer.models.training import load_extractor
+
+    _, meta = load_extractor(model)
+    tuned = meta["trigger_threshold"]
+    assert tuned["threshold"] in {round(0.05 * k, 2) for k in range(2, 13)} and 0 < tuned["inner_fold_f1"] <= 1
+    assert (f"trigger threshold {tuned['threshold']:.2f}, chosen on inner folds of the training docs; "
+            f"trigger F1 on their held-out docs {tuned['inner_fold_f1']:.3f}") in fitted.output

@@ -200,6 +200,10 @@ def fit(
         say(_auxiliary_line(used, augmented=settings.configs[0].auxiliary.augment))
     if outcome.widened or outcome.dropped:
         say(f"alignment: {outcome.widened} span(s) widened to token boundaries, {outcome.dropped} dropped")
+    if outcome.trigger_threshold is not None:
+        say(f"trigger threshold {outcome.trigger_threshold:.2f}, chosen on inner folds of the training docs; "
+            f"trigger F1 on their held-out docs {outcome.trigger_threshold_f1:.3f} (exact token ranges; an early "
+            "estimate: `itinerant crossval` measures it properly)")
     if outcome.held_out:
         thresholds = ", ".join(f"{label} {value:.3f}" for label, value in outcome.thresholds.items()) or "none"
         say(f"confidence: {', '.join(outcome.calibrated) or 'no label'} calibrated; thresholds: {thresholds}; "

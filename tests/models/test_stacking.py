@@ -9,7 +9,7 @@ from trainer.corpus.reader import read_corpus
 from trainer.evaluation.scoring import count_corpus
 from trainer.features.extract import DOMAIN_KEY
 from trainer.models.extractor import THRESHOLD_GRID, MotionExtractor
-from trainer.models.training import fit_extractor
+from trainer.models.training import fit_extractor, tuned_trigger_threshold
 from trainer.parsing.parse import parse_records
 
 pytestmark = pytest.mark.slow
@@ -66,6 +66,12 @@ def test_the_trigger_threshold_is_chosen_on_inner_folds_of_the_training_docs(dem
     again = fit_extractor(demo["train"], _config(demo["tmp"], groups=[*SIX, "rules"], tune=True, kind="logistic"),
                           nlp=nlp, docs=demo["train_docs"])
     assert again.extractor.threshold_scores_ == scores  # deterministic
+    # What fit reports and the model file's metadata keep: the chosen threshold and its inner-fold F1.
+    assert tuned_trigger_threshold(extractor) == {"threshold": best, "inner_fold_f1": scores[best]}
+    assert 0.5 < scores[best] < 1.0
+    plain = fit_extractor(demo["train"][:120], _config(demo["tmp"], groups=SIX, kind="logistic"), nlp=nlp,
+                          docs=demo["train_docs"][:120])
+    assert tuned_trigger_threshold(plain.extractor) is None  # nothing tuned, nothing reported
 
 
 def test_auxiliary_corpora_join_training_with_their_own_domain_and_predictions_use_the_target_copies(demo, nlp):

@@ -32,6 +32,9 @@ class FitOutcome:
     calibrated: list[str] = field(default_factory=list)  # labels whose confidences are calibrated
     held_out: dict[str, int] = field(default_factory=dict)  # held-out predictions each label's policy came from
     unreached: list[str] = field(default_factory=list)  # labels below the target precision at every threshold
+    # With [trigger_model] tune_threshold: the threshold chosen and the pooled trigger F1 the inner folds gave it
+    trigger_threshold: float | None = None
+    trigger_threshold_f1: float | None = None
 
 
 def fit_model(corpus: Sequence[Path], output: Path, settings: RunSettings, *, skip_bad: bool = False, jobs: int = 1,
@@ -70,7 +73,9 @@ def fit_model(corpus: Sequence[Path], output: Path, settings: RunSettings, *, sk
         metadata = save_extractor(trained, output, records=annotated, training_seconds=time.perf_counter() - started)
     alignment = trained.alignment
     policy = trained.extractor.confidence_
+    tuned = metadata.get("trigger_threshold") or {}
     return FitOutcome(output, config.name, len(annotated), docs, metadata, trained.auxiliary, len(data.skipped),
                       alignment.widened if alignment else 0, alignment.dropped if alignment else 0,
                       dict(policy.thresholds) if policy else {}, sorted(policy.calibrators) if policy else [],
-                      dict(policy.held_out) if policy else {}, list(policy.unreached) if policy else [])
+                      dict(policy.held_out) if policy else {}, list(policy.unreached) if policy else [],
+                      tuned.get("threshold"), tuned.get("inner_fold_f1"))
