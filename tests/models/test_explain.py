@@ -140,3 +140,14 @@ def test_span_explanations_skip_rule_stages_and_spans_off_the_tokens(crf) -> Non
                             trigger_finder=RuleTriggerFinder(None), role_labeller=RuleTriggerFinder(None))
     assert span_explanations(rules, [doc], [Record("r", "d", doc.text, (Event((3, 5), ()),))]) == {}
     assert span_explanations(rules, [], []) == {}
+
+
+def test_a_tuned_trigger_threshold_is_named_beside_the_trigger_weights(crf) -> None:
+    finder = SimpleNamespace(tagger=crf, decision_threshold=0.3)
+    extractor = SimpleNamespace(trigger_finder=finder, role_labeller=RuleTriggerFinder(None),
+                                threshold_scores_={0.25: 0.71, 0.3: 0.755, 0.35: 0.74})
+    stages = explain_extractor(TrainedExtractor(extractor, config_from_dict({}), "test-pipeline"))
+    assert stages[0].note == ("a token starts a trigger at probability 0.30 or more, the threshold chosen on inner "
+                              "folds of the training docs (trigger F1 there 0.755)")
+    untuned = SimpleNamespace(trigger_finder=SimpleNamespace(tagger=crf), role_labeller=RuleTriggerFinder(None))
+    assert explain_extractor(TrainedExtractor(untuned, config_from_dict({}), "test-pipeline"))[0].note == ""

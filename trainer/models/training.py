@@ -139,7 +139,7 @@ def tuned_trigger_threshold(extractor: MotionExtractor) -> dict[str, float] | No
     The F1 is over exact token ranges of the held-out target docs of the inner folds: an early estimate of
     trigger finding on the user's own text, from models trained on about two thirds of the training docs.
     """
-    scores = extractor.threshold_scores_
+    scores = getattr(extractor, "threshold_scores_", None)  # absent in model files written before tuning
     if not scores:
         return None
     threshold = extractor.trigger_finder.decision_threshold
