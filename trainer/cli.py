@@ -12,13 +12,16 @@ import sys
 import time
 from contextlib import contextmanager
 from pathlib import Path
-from typing import Annotated, Callable, Optional, get_args, get_origin
+from typing import TYPE_CHECKING, Annotated, Callable, Optional, get_args, get_origin
 
 import typer
 import typer.core
 
 from trainer.config import DEFAULT_BOOTSTRAP_SAMPLES, DEFAULT_MODE, DEFAULT_SEED, DEFAULT_TRIALS, READY_CONFIGS
 from trainer.errors import ItinerantError
+
+if TYPE_CHECKING:  # for annotations only: the command imports it when it runs
+    from trainer.experiment.fitting import FitOutcome
 
 app = typer.Typer(
     add_completion=False,
@@ -198,12 +201,8 @@ def fit(
     outcome = fit_model(corpus, output, settings, skip_bad=skip_bad, jobs=jobs, progress=say)
     for used in outcome.auxiliary:
         say(_auxiliary_line(used, augmented=settings.configs[0].auxiliary.augment))
-    if outcome.widened or outcome.dropped:
-        say(f"alignment: {outcome.widened} span(s) widened to token boundaries, {outcome.dropped} dropped")
-    if outcome.trigger_threshold is not None:
-        say(f"trigger threshold {outcome.trigger_threshold:.2f}, chosen on inner folds of the training docs; "
-            f"trigger F1 on their held-out docs {outcome.trigger_threshold_f1:.3f} (exact token ranges; an early "
-            "estimate: `itinerant crossval` measures it properly)")
+    for line in _training_notes(outcome):
+        say(line)
     if outcome.held_out:
         thresholds = ", ".join(f"{label} {value:.3f}" for label, value in outcome.thresholds.items()) or "none"
         say(f"confidence: {', '.join(outcome.calibrated) or 'no label'} calibrated; thresholds: {thresholds}; "
@@ -215,6 +214,18 @@ def fit(
     say(f"model written to {output} ({meta['payload_bytes']} bytes, {meta['training_seconds']} s); digest in {output}.sha256")
     if outcome.skipped:
         raise typer.Exit(1)
+
+
+def _training_notes(outcome: FitOutcome) -> list[str]:
+    """What training did to the gold spans, and the trigger threshold it chose with its inner-fold F1."""
+    notes = []
+    if outcome.widened or outcome.dropped:
+        notes.append(f"alignment: {outcome.widened} span(s) widened to token boundaries, {outcome.dropped} dropped")
+    if outcome.trigger_threshold is not None:
+        notes.append(f"trigger threshold {outcome.trigger_threshold:.2f}, chosen on inner folds of the training docs; "
+                     f"trigger F1 on their held-out docs {outcome.trigger_threshold_f1:.3f} (exact token ranges; an "
+                     "early estimate: `itinerant crossval` measures it properly)")
+    return notes
 
 
 def _auxiliary_line(used: dict, *, augmented: bool) -> str:
