@@ -194,3 +194,25 @@ def test_a_confidence_floor_keeps_gold_records_and_refuses_numbers_outside_0_to_
         with pytest.raises(ConfigError) as caught:
             build_itinerary(RECORDS, min_confidence=bad)
         assert caught.value.cause == f"min_confidence (--min-confidence) must be a number from 0 to 1, got {bad!r}"
+
+
+def test_above_floor_is_the_one_rule_for_events_and_roles_and_the_bench_applies_it() -> None:
+    from trainer.annotation.itinerary import above_floor
+    from tests.conftest import load_bench
+
+    record = _with_confidences(
+        rec("[We|mover1,mover2] [left|T1] [Caddow|source1] and [rode|T2] to [Kell Ferry|destination2].", "log-s001"),
+        [(0.9, [0.8, 0.45]), (0.4, [0.3, 0.35])])
+    first, second = record.events
+    assert above_floor(second, 0.5) is None
+    assert [r.confidence for r in above_floor(first, 0.5).roles] == [0.8]
+    assert above_floor(first, None) == first and above_floor(first, 0.0).roles == first.roles
+    gold = rec("[We|mover1] [left|T1] [Caddow|source1].", "g-s001").events[0]
+    assert above_floor(gold, 0.99) == gold and above_floor(gold, 0.99).roles == gold.roles  # no confidences: kept
+
+    bench = load_bench("role_confidence")
+    floored = bench.floored(record, 0.5)
+    assert [(e.confidence, [r.confidence for r in e.roles]) for e in floored.events] == [(0.9, [0.8])]
+    own = bench.own_confidences(record)  # the role stage's own: each role's confidence over its trigger's
+    assert [[r.confidence for r in e.roles] for e in own.events] == [
+        pytest.approx([0.8 / 0.9, 0.5]), pytest.approx([0.75, 0.875])]

@@ -195,6 +195,16 @@ def _below(confidence: float | None, floor: float | None) -> bool:
     return floor is not None and confidence is not None and confidence < floor
 
 
+def above_floor(event: Event, floor: float | None) -> Event | None:
+    """The event with its role spans below the confidence floor left out; None when the event itself is below it.
+
+    Confidences that are absent (gold) are never below; no floor keeps everything.
+    """
+    if _below(event.confidence, floor):
+        return None
+    return replace(event, roles=tuple(r for r in event.roles if not _below(r.confidence, floor)))
+
+
 def build_itinerary(
     records: Iterable[Record], *, movers: Sequence[str] | str | None = None, carry_mover: bool = False,
     min_confidence: float | None = None,
@@ -222,12 +232,12 @@ def build_itinerary(
         for record in doc_records:
             for number, event in enumerate(record.events or (), start=1):
                 with_confidence += event.confidence is not None
-                if _below(event.confidence, floor):
+                kept = above_floor(event, floor)
+                if kept is None:
                     below_floor += 1
                     continue
-                kept_roles = tuple(r for r in event.roles if not _below(r.confidence, floor))
-                roles_below_floor += len(event.roles) - len(kept_roles)
-                event = replace(event, roles=kept_roles)
+                roles_below_floor += len(event.roles) - len(kept.roles)
+                event = kept
                 own = _texts(record, event, MOVER)
                 carried = carry_mover and not own and bool(previous)
                 mover_texts = previous if carried else own
