@@ -33,7 +33,7 @@ from trainer.annotation.itinerary import above_floor
 from trainer.corpus.reader import read_corpus
 from trainer.corpus.records import DEFAULT_ROLES, Record
 from trainer.errors import ItinerantError
-from trainer.evaluation.confidence import Scored, reliability, scored_predictions
+from trainer.evaluation.confidence import pooled_roles, reliability, scored_predictions
 from trainer.evaluation.scoring import prf, score_corpus
 
 FLOORS = (None, 0.3, 0.5, 0.7, 0.9)
@@ -52,11 +52,6 @@ def floored(record: Record, floor: float | None) -> Record:
     if record.events is None:
         return record
     return record.with_events([kept for e in record.events if (kept := above_floor(e, floor)) is not None])
-
-
-def all_roles(scored: dict[str, Scored]) -> Scored:
-    parts = [scored[role] for role in DEFAULT_ROLES]
-    return sum(parts[1:], parts[0])
 
 
 def main() -> None:
@@ -79,7 +74,7 @@ def main() -> None:
     print("| role confidence | instances | ECE | ROC AUC | mean confidence | share right |")
     print("|---|---|---|---|---|---|")
     for name, records in (("role stage's own", [own_confidences(r) for r in predicted]), ("product (as written)", predicted)):
-        pooled = all_roles(scored_predictions(gold, records, roles=DEFAULT_ROLES, mode=args.mode))
+        pooled = pooled_roles(scored_predictions(gold, records, roles=DEFAULT_ROLES, mode=args.mode), DEFAULT_ROLES)
         print(f"| {name} | {len(pooled.confidence)} | {reliability(pooled)['ece']:.3f} | "
               f"{roc_auc_score(pooled.correct, pooled.confidence):.3f} | {pooled.confidence.mean():.3f} | "
               f"{pooled.correct.mean():.3f} |")

@@ -134,12 +134,17 @@ def precision_recall(scored: Scored) -> dict[str, Any]:
     return {"gold": scored.gold, "points": points, "best": best}
 
 
+def pooled_roles(scored: dict[str, Scored], roles: Sequence[str]) -> Scored:
+    """Every role's points and gold count pooled (the ``all_roles`` label of a report)."""
+    roles = check_roles(roles)
+    return sum((scored[role] for role in roles[1:]), scored[roles[0]])
+
+
 def confidence_report(gold: Sequence[Record], predicted: Sequence[Record], *, roles: Sequence[str],
                       mode: str = DEFAULT_MODE, bins: int = DEFAULT_BINS) -> dict[str, Any]:
     """Reliability and precision-recall for the trigger, each role and all roles pooled."""
     scored = scored_predictions(gold, predicted, roles=roles, mode=mode)
-    roles = check_roles(roles)
-    scored[ALL_ROLES] = sum((scored[role] for role in roles[1:]), scored[roles[0]])
+    scored[ALL_ROLES] = pooled_roles(scored, roles)
     return {"mode": mode, "bins": bins,
             "calibration": {label: reliability(s, bins) for label, s in scored.items()},
             "thresholds": {label: precision_recall(s) for label, s in scored.items()}}
