@@ -254,6 +254,19 @@ def test_the_auxiliary_line_of_fit_says_whether_features_were_augmented():
     assert augmented.endswith("; features augmented by corpus") and "not augmented" not in augmented
 
 
+def test_fit_says_where_the_conventions_differ_when_that_switched_augmentation_on(tmp_path):
+    from trainer.cli import _training_notes
+    from trainer.experiment.fitting import FitOutcome
+
+    departure = "the rules' mover precision 0.30 against 0.90, z -22.9"
+    outcome = FitOutcome(tmp_path / "m.itin", "default", 400, 5, {}, augmented=True, departures=[departure])
+    (note,) = _training_notes(outcome)
+    assert note.startswith(f"annotation conventions differ from the auxiliary corpora's ({departure}), so features "
+                           "were augmented by corpus")
+    assert "augment_if_conventions_differ" in note and "docs/real-prose.md" in note
+    assert _training_notes(FitOutcome(tmp_path / "m.itin", "default", 400, 5, {})) == []
+
+
 def test_a_wrong_mode_or_conflicting_configs_stop_crossval_before_any_work(tmp_path, demo_train, monkeypatch):
     from trainer.experiment import crossval as crossval_module
 

@@ -200,7 +200,7 @@ def fit(
     settings = resolve_settings([config] if config else [], overrides)
     outcome = fit_model(corpus, output, settings, skip_bad=skip_bad, jobs=jobs, progress=say)
     for used in outcome.auxiliary:
-        say(_auxiliary_line(used, augmented=settings.configs[0].auxiliary.augment))
+        say(_auxiliary_line(used, augmented=outcome.augmented))
     for line in _training_notes(outcome):
         say(line)
     if outcome.held_out:
@@ -221,6 +221,10 @@ def _training_notes(outcome: FitOutcome) -> list[str]:
     notes = []
     if outcome.widened or outcome.dropped:
         notes.append(f"alignment: {outcome.widened} span(s) widened to token boundaries, {outcome.dropped} dropped")
+    if outcome.departures:
+        notes.append(f"annotation conventions differ from the auxiliary corpora's ({'; '.join(outcome.departures)}), "
+                     "so features were augmented by corpus ([auxiliary] augment_if_conventions_differ; "
+                     "docs/real-prose.md)")
     if outcome.trigger_threshold is not None:
         notes.append(f"trigger threshold {outcome.trigger_threshold:.2f}, chosen on inner folds of the training docs; "
                      f"trigger F1 on their held-out docs {outcome.trigger_threshold_f1:.3f} (exact token ranges; an "

@@ -92,10 +92,14 @@ class AuxiliaryConfig:
     ``packaged:<name>`` for a corpus shipped with itinerant (``packaged:demo``).
     ``augment`` copies each feature into a shared and a per-corpus version
     (Daumé III 2007), so the model can learn where the other books differ.
+    ``augment_if_conventions_differ`` augments only when the training corpus's
+    annotation departs from the auxiliary corpora's, measured against the rules
+    (:mod:`trainer.models.conventions`).
     """
 
     corpora: list[str] = field(default_factory=list)
     augment: bool = False
+    augment_if_conventions_differ: bool = False
 
 
 CALIBRATION_METHODS = ("none", "isotonic", "platt")
@@ -309,11 +313,15 @@ def load_config(path: Path | str) -> ExperimentConfig:
 def add_auxiliary(config: ExperimentConfig, corpora: Sequence[str] = (), augment: bool | None = None) -> ExperimentConfig:
     """A copy of the config with more auxiliary corpora (paths from the working folder) and augmentation set.
 
-    This is what ``--aux`` and ``--augment`` do on the command line.
+    This is what ``--aux`` and ``--augment`` / ``--no-augment`` do on the command line: ``augment`` True or
+    False also settles ``augment_if_conventions_differ`` (always, or never).
     """
     extra = [resolve_source(c, Path.cwd()) for c in corpora]
     merged = list(dict.fromkeys([*config.auxiliary.corpora, *extra]))
-    auxiliary = AuxiliaryConfig(corpora=merged, augment=config.auxiliary.augment if augment is None else augment)
+    if augment is None:
+        auxiliary = replace(config.auxiliary, corpora=merged)
+    else:  # --augment always augments, --no-augment never does
+        auxiliary = AuxiliaryConfig(corpora=merged, augment=augment, augment_if_conventions_differ=False)
     return replace(config, auxiliary=auxiliary)
 
 

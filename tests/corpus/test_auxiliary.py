@@ -100,3 +100,16 @@ def test_auxiliary_corpora_must_be_paths() -> None:
         config_from_dict({"auxiliary": {"corpora": ["packaged:demo", 3]}}, "x.toml")
     with pytest.raises(ConfigError, match="'auxiliary.augment' must be bool"):
         config_from_dict({"auxiliary": {"augment": "yes"}}, "x.toml")
+    with pytest.raises(ConfigError, match="'auxiliary.augment_if_conventions_differ' must be bool"):
+        config_from_dict({"auxiliary": {"augment_if_conventions_differ": "auto"}}, "x.toml")
+
+
+def test_augment_on_the_command_line_settles_whether_conventions_are_checked() -> None:
+    checking = config_from_dict({"auxiliary": {"corpora": ["packaged:demo"], "augment_if_conventions_differ": True}})
+    kept = add_auxiliary(checking)  # no --augment / --no-augment: the config's own choice stands
+    assert (kept.auxiliary.augment, kept.auxiliary.augment_if_conventions_differ) == (False, True)
+    always = add_auxiliary(checking, augment=True)
+    never = add_auxiliary(checking, augment=False)
+    assert (always.auxiliary.augment, never.auxiliary.augment) == (True, False)
+    assert not always.auxiliary.augment_if_conventions_differ and not never.auxiliary.augment_if_conventions_differ
+    assert load_config(ROOT / "configs" / "default.toml").auxiliary.augment_if_conventions_differ

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import pytest
 
 from trainer.config import add_auxiliary, config_from_dict
@@ -97,6 +99,29 @@ def test_auxiliary_corpora_join_training_with_their_own_domain_and_predictions_u
     weights = extractor.trigger_finder.tagger.crf_.state_features_
     assert any(name.startswith("demo~") for name, _ in weights)
     assert any(name.startswith("target~") for name, _ in weights)
+
+
+PRONOUNS = {"i", "we", "he", "she", "it", "they", "me", "us", "him", "them", "who", "which", "that"}
+
+
+def test_features_are_augmented_only_when_the_annotation_departs_from_the_auxiliary_corpus(demo, nlp):
+    config = config_from_dict({**_config(demo["tmp"], groups=["lexical", "lexicon"]).to_dict(),
+                               "auxiliary": {"corpora": ["packaged:demo"], "augment_if_conventions_differ": True}})
+    same = fit_extractor(demo["train"], config, nlp=nlp, docs=demo["train_docs"]).extractor
+    assert same.departures_ == [] and same.domains_ == []  # the demo's own guide: trained as without the option
+    # The same sentences as a team that never marks a pronoun as mover would annotate them.
+    relabelled = [r.with_events([replace(e, roles=tuple(x for x in e.roles if not (
+        x.role == "mover" and r.text[x.span[0]:x.span[1]].lower() in PRONOUNS))) for e in r.events])
+        for r in demo["train"]]
+    dropped = sum(len(e.roles) for r in demo["train"] for e in r.events) - sum(
+        len(e.roles) for r in relabelled for e in r.events)
+    assert dropped > 20
+    other = fit_extractor(relabelled, config, nlp=nlp, docs=demo["train_docs"]).extractor
+    (departure,) = other.departures_
+    assert (departure.role, departure.measure) == ("mover", "precision")
+    assert departure.auxiliary - departure.target >= 0.10 and departure.z <= -3.0
+    assert other.domains_ == ["demo", "target"]  # so the target's own copies of the features can win
+    assert "target~lower" in other.prediction_features(demo["test_docs"][:1])[0][0]
 
 
 def test_uncertainty_of_an_augmented_model_reads_the_target_copies_it_predicts_with(demo, nlp, monkeypatch):

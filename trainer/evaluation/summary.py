@@ -120,6 +120,10 @@ def summarise_system(run: CrossvalRun, system: SystemRun, settings: EvaluationSe
     first_repeat = system.predictions(min(f.repeat for f in system.folds))
     gold_by_id = {r.id: r for r in run.records}
     first_gold = [gold_by_id[r.id] for r in first_repeat]
+    per_fold = fold_breakdown(parts_by_mode, [(f.repeat, f.fold) for f in system.folds])
+    for entry, fold in zip(per_fold, system.folds):
+        if fold.departures:
+            entry["conventions_departing"] = list(fold.departures)
     return SystemSummary(
         name=system.name,
         scores=counts.scores(),
@@ -132,7 +136,7 @@ def summarise_system(run: CrossvalRun, system: SystemRun, settings: EvaluationSe
                  "predict_seconds": round(sum(f.predict_seconds for f in system.folds), 2)},
         interval_docs=len(set(counts.doc_of.values())),
         breakdown={**breakdown({mode: pool_folds(system, p) for mode, p in parts_by_mode.items()}),
-                   "per_fold": fold_breakdown(parts_by_mode, [(f.repeat, f.fold) for f in system.folds])},
+                   "per_fold": per_fold},
         confidence=confidence_report(first_gold, first_repeat, roles=roles, mode=settings.mode),
     )
 

@@ -49,7 +49,8 @@ def _run_fold(config: ExperimentConfig, featurizer: Featurizer, repeat: int, ind
     predicted_at = time.perf_counter()
     return FoldOutput(config.name, repeat, index, predicted, given, trained_at - started,
                       predicted_at - trained_at, target_records,
-                      span_explanations(extractor, test_docs, predicted) if explain else {})
+                      span_explanations(extractor, test_docs, predicted) if explain else {},
+                      [d.describe() for d in extractor.departures_])
 
 
 def run_crossval(

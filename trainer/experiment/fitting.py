@@ -35,6 +35,8 @@ class FitOutcome:
     # With [trigger_model] tune_threshold: the threshold chosen and the pooled trigger F1 the inner folds gave it
     trigger_threshold: float | None = None
     trigger_threshold_f1: float | None = None
+    augmented: bool = False  # features augmented by corpus ([auxiliary] augment, or conventions that differ)
+    departures: list[str] = field(default_factory=list)  # where the conventions differ, measured against the rules
 
 
 def fit_model(corpus: Sequence[Path], output: Path, settings: RunSettings, *, skip_bad: bool = False, jobs: int = 1,
@@ -78,4 +80,5 @@ def fit_model(corpus: Sequence[Path], output: Path, settings: RunSettings, *, sk
                       alignment.widened if alignment else 0, alignment.dropped if alignment else 0,
                       dict(policy.thresholds) if policy else {}, sorted(policy.calibrators) if policy else [],
                       dict(policy.held_out) if policy else {}, list(policy.unreached) if policy else [],
-                      tuned.get("threshold"), tuned.get("inner_fold_f1"))
+                      tuned.get("threshold"), tuned.get("inner_fold_f1"), metadata["augmentation"]["augmented"],
+                      metadata["augmentation"]["conventions_departing"])

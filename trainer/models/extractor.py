@@ -18,6 +18,7 @@ from trainer.corpus.records import Event, Record, RoleSpan
 from trainer.errors import ConfigError
 from trainer.features.extract import Featurizer
 from trainer.models.calibration import ConfidencePolicy, held_out_points
+from trainer.models.conventions import Departure, departures, rule_agreement
 from trainer.models.kinds import MODEL_KINDS, RoleLabeller, TriggerFinder
 from trainer.models.search import f1_of_sets, inner_folds, search_stage
 from trainer.models.sequence import marginal_spans
@@ -93,6 +94,7 @@ class MotionExtractor:
         self.search_results_: dict[str, list[dict]] = {}
         self.domains_: list[str] = []
         self.threshold_scores_: dict[float, float] = {}
+        self.departures_: list[Departure] = []
         self.confidence_: ConfidencePolicy | None = None
         # A role's confidence is that of the whole instance (trigger, role, span): see raw_predictions.
         # Model files written before it lack the attribute and keep the role stage's own confidence.
@@ -174,7 +176,9 @@ class MotionExtractor:
             self._search(records, docs, targets)
         if domains is not None and len(domains) != len(records):
             raise ConfigError(f"{len(domains)} domain names for {len(records)} records", "give one domain per record")
-        augmenting = domains is not None and self.config.auxiliary.augment and set(domains) != {TARGET_DOMAIN}
+        self.departures_ = []
+        augmenting = domains is not None and set(domains) != {TARGET_DOMAIN} and (
+            self.config.auxiliary.augment or self._conventions_differ(docs, targets, domains))
         self.domains_ = sorted(set(domains)) if augmenting else []
         features = self._features(docs, domains if augmenting else None)
         if self.config.trigger_model.tune_threshold and isinstance(self.trigger_finder, SequenceTriggerFinder):
@@ -186,6 +190,20 @@ class MotionExtractor:
         self.role_labeller.fit([docs[i] for i in with_triggers], [targets.triggers[i] for i in with_triggers],
                                [targets.roles[i] for i in with_triggers], [features[i] for i in with_triggers])
         return self
+
+    def _conventions_differ(self, docs: Sequence[Doc], targets: GoldTargets, domains: Sequence[str]) -> bool:
+        """With ``[auxiliary] augment_if_conventions_differ``: whether the target's annotation departs from the
+        auxiliary corpora's, measured against the rules (:mod:`trainer.models.conventions`); the departures are
+        kept in ``departures_``."""
+        if not self.config.auxiliary.augment_if_conventions_differ:
+            return False
+        counts = {}
+        for side in (True, False):
+            chosen = [i for i, domain in enumerate(domains) if (domain == TARGET_DOMAIN) == side]
+            counts[side] = rule_agreement([docs[i] for i in chosen], [targets.triggers[i] for i in chosen],
+                                          [targets.roles[i] for i in chosen], self.featurizer.lexicons)
+        self.departures_ = departures(counts[True], counts[False], self.config.roles)
+        return bool(self.departures_)
 
     def _learn_confidence(self, records: Sequence[Record], docs: Sequence[Doc], targets: GoldTargets,
                           domains: Sequence[str] | None) -> None:

@@ -161,6 +161,8 @@ def save_extractor(trained: TrainedExtractor, path: Path | str, *, records: Sequ
             "events": sum(len(r.events or ()) for r in records),
         },
         "auxiliary_corpora": trained.auxiliary,
+        "augmentation": {"augmented": bool(trained.extractor.domains_),
+                         "conventions_departing": [d.describe() for d in trained.extractor.departures_]},
         "trigger_threshold": tuned_trigger_threshold(trained.extractor),
         "training_seconds": round(training_seconds, 2),
         "created": time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime()),

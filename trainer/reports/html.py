@@ -393,6 +393,12 @@ def breakdown_section(report: dict[str, Any], system: dict[str, Any]) -> str:
              ("fold", folds, "per-fold")]
     details = "".join(f'<details class="breakdown" open><summary>Per {title} ({len(groups)})</summary>'
                       f"{group_table(title, groups, css)}</details>" for title, groups, css in parts if groups)
+    departing = {name: f["conventions_departing"] for name, f in folds.items() if f.get("conventions_departing")}
+    if departing:
+        items = "".join(f"<li>{_e(name)}: {_e('; '.join(found))}</li>" for name, found in departing.items())
+        details += (f'<p class="note">Features augmented by corpus in {len(departing)} of {len(folds)} folds, where '
+                    "the training annotation departs from the auxiliary corpora's conventions "
+                    f"(<code>[auxiliary] augment_if_conventions_differ</code>):</p><ul>{items}</ul>")
     return (matching_table(report, system)
             + ("<h3>Per book, doc and fold</h3><p class=\"note\">The same held-out counts grouped by book (doc name "
                "without its trailing chapter number), by doc and by fold; each mode's groups add up to its pooled counts.</p>"

@@ -83,6 +83,12 @@ def breakdown_lines(system: dict[str, Any], roles: list[str]) -> list[str]:
         table = group_table(title, groups if groups is not None else system.get(key, {}))
         if table:
             out += ["", f"Per {title}:", ""] + table
+    departing = {name: f["conventions_departing"] for name, f in folds.items() if f.get("conventions_departing")}
+    if departing:
+        out += ["", f"Features augmented by corpus in {len(departing)} of {len(folds)} folds, where the training "
+                "annotation departs from the auxiliary corpora's conventions (`[auxiliary] "
+                "augment_if_conventions_differ`):", ""]
+        out += [f"- {name}: {'; '.join(found)}" for name, found in departing.items()]
     calibration, thresholds = system.get("calibration"), system.get("thresholds")
     if calibration and not any(c["instances"] for c in calibration.values()):
         out += ["", "Calibration and confidence thresholds: none, the predictions carry no confidences."]
