@@ -335,8 +335,8 @@ def main() -> None:
     parser.add_argument("--curve", action="store_true",
                         help="also the learning curve over shares of the training chapters (about 11 more minutes on 2 cores)")
     parser.add_argument("--conventions", action="store_true",
-                        help="also the default with and without feature augmentation on copies of the corpus "
-                             "relabelled under other conventions (about 50 more minutes on 2 cores)")
+                        help="also the default, and it always and never augmenting features, on copies of the "
+                             "corpus relabelled under other conventions (about 65 more minutes on 2 cores)")
     args = parser.parse_args()
     if args.passages == 1 or args.passages < 0:
         parser.error(f"--passages must be 2 or more (0 for none), got {args.passages}")
