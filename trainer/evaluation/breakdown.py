@@ -72,6 +72,18 @@ def fold_name(fold: Mapping[str, Any]) -> str:
     return f"{label} ({held_out})" if held_out else label
 
 
+def departing_folds(per_fold: Sequence[Mapping[str, Any]]) -> dict[str, list[str]]:
+    """Per :func:`fold_breakdown` entry whose training annotation departed from its auxiliary corpora's
+    conventions (its ``conventions_departing``), by :func:`fold_name`: where it departed."""
+    return {fold_name(f): list(f["conventions_departing"]) for f in per_fold if f.get("conventions_departing")}
+
+
+def departing_folds_note(departing: Mapping[str, Sequence[str]], folds: int) -> str:
+    """The sentence that introduces :func:`departing_folds` in a report (the config key follows it)."""
+    return (f"Features augmented by corpus in {len(departing)} of {folds} folds, where the training annotation "
+            "departs from the auxiliary corpora's conventions")
+
+
 def fold_breakdown(folds_by_mode: Mapping[str, Sequence[CorpusCounts]],
                    fold_labels: Sequence[tuple[int, int]]) -> list[dict[str, Any]]:
     """Each fold's held-out docs and compact scores in every mode; ``fold_labels``: (repeat, fold) of each part."""

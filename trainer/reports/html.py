@@ -33,7 +33,7 @@ from dataclasses import dataclass
 from typing import Any, Iterable, Mapping, Sequence
 
 from trainer.corpus.records import Record
-from trainer.evaluation.breakdown import fold_name
+from trainer.evaluation.breakdown import departing_folds, departing_folds_note, fold_name
 from trainer.evaluation.error_analysis import classify_record
 from trainer.reports.plots import learning_curve_plot, precision_recall_plot, reliability_plot, role_f1_plot
 
@@ -393,11 +393,10 @@ def breakdown_section(report: dict[str, Any], system: dict[str, Any]) -> str:
              ("fold", folds, "per-fold")]
     details = "".join(f'<details class="breakdown" open><summary>Per {title} ({len(groups)})</summary>'
                       f"{group_table(title, groups, css)}</details>" for title, groups, css in parts if groups)
-    departing = {name: f["conventions_departing"] for name, f in folds.items() if f.get("conventions_departing")}
+    departing = departing_folds(system.get("per_fold", []))
     if departing:
         items = "".join(f"<li>{_e(name)}: {_e('; '.join(found))}</li>" for name, found in departing.items())
-        details += (f'<p class="note">Features augmented by corpus in {len(departing)} of {len(folds)} folds, where '
-                    "the training annotation departs from the auxiliary corpora's conventions "
+        details += (f'<p class="note">{_e(departing_folds_note(departing, len(folds)))} '
                     f"(<code>[auxiliary] augment_if_conventions_differ</code>):</p><ul>{items}</ul>")
     return (matching_table(report, system)
             + ("<h3>Per book, doc and fold</h3><p class=\"note\">The same held-out counts grouped by book (doc name "

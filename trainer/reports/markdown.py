@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from typing import Any
 
-from trainer.evaluation.breakdown import fold_name
+from trainer.evaluation.breakdown import departing_folds, departing_folds_note, fold_name
 
 
 def _f(value: float) -> str:
@@ -83,11 +83,10 @@ def breakdown_lines(system: dict[str, Any], roles: list[str]) -> list[str]:
         table = group_table(title, groups if groups is not None else system.get(key, {}))
         if table:
             out += ["", f"Per {title}:", ""] + table
-    departing = {name: f["conventions_departing"] for name, f in folds.items() if f.get("conventions_departing")}
+    departing = departing_folds(system.get("per_fold", []))
     if departing:
-        out += ["", f"Features augmented by corpus in {len(departing)} of {len(folds)} folds, where the training "
-                "annotation departs from the auxiliary corpora's conventions (`[auxiliary] "
-                "augment_if_conventions_differ`):", ""]
+        out += ["", f"{departing_folds_note(departing, len(folds))} (`[auxiliary] augment_if_conventions_differ`):",
+                ""]
         out += [f"- {name}: {'; '.join(found)}" for name, found in departing.items()]
     calibration, thresholds = system.get("calibration"), system.get("thresholds")
     if calibration and not any(c["instances"] for c in calibration.values()):
