@@ -68,9 +68,9 @@ def main() -> None:
             docs = [doc for _, doc in pairs]
             run = {"bare parse": parse, "parse cut into sentence docs": sentences}
             run["token features"], features = cpu(lambda: extractor.prediction_features(docs))
-            run["trigger stage"], triggers = cpu(lambda: extractor.trigger_finder.predict(docs, features))
+            run["trigger stage"], triggers = cpu(lambda: extractor.trigger_finder.predict(docs, features.triggers))
             run["role stage (role features and tagging)"], _ = cpu(
-                lambda: extractor.role_labeller.predict(docs, triggers, features))
+                lambda: extractor.role_labeller.predict(docs, triggers, features.roles))
             runs.append(run)
     steps = {name: min(run[name] for run in runs) for name in runs[0]}
     parse = steps.pop("bare parse")
@@ -87,7 +87,7 @@ def main() -> None:
           f"extraction/parse words per second at most {parse / (parse + after):.2f} (before reading and writing)")
     tagger = extractor.trigger_finder.tagger if hasattr(extractor.trigger_finder, "tagger") else None
     if isinstance(tagger, LogisticTagger):
-        flat = [f for sentence in features for f in sentence]
+        flat = [f for sentence in features.triggers for f in sentence]
         reference, expected = cpu(lambda: tagger.vectorizer_.transform(flat))
         fast, got = cpu(lambda: vectorize(tagger.vectorizer_, flat))
         same = (expected != got).nnz == 0 and expected.indices.tolist() == got.indices.tolist()

@@ -114,7 +114,7 @@ def main() -> None:
                                   docs=[docs[i] for i in train]).extractor
         threshold = extractor.trigger_finder.decision_threshold
         curves.append(dict(extractor.threshold_scores_))
-        features = extractor.prediction_features([docs[i] for i in test])
+        features = extractor.prediction_features([docs[i] for i in test]).triggers
         distributions = extractor.trigger_finder.tagger.token_distributions(features)
         gold = gold_targets([records[i] for i in test], [docs[i] for i in test]).triggers
         for sentence, rows, triggers in zip(distributions, features, gold):

@@ -246,12 +246,14 @@ def test_the_auxiliary_line_of_fit_says_whether_features_were_augmented():
 
     used = {"name": "demo", "source": "packaged:demo", "records": 792, "left_out_shared_with_target": 656,
             "role_spans_left_out": {"vehicle": 3}}
-    plain = _auxiliary_line(used, augmented=False)
+    plain = _auxiliary_line(used, augmented=[])
     assert plain.startswith("auxiliary corpus 'demo' (packaged:demo): 792 record(s) joined training, 656 left out")
     assert "role spans outside the inventory left out: vehicle 3" in plain
     assert "not augmented" in plain and "--augment" in plain and "docs/real-prose.md" in plain
-    augmented = _auxiliary_line(used, augmented=True)
-    assert augmented.endswith("; features augmented by corpus") and "not augmented" not in augmented
+    augmented = _auxiliary_line(used, augmented=["triggers", "roles"])
+    assert augmented.endswith("; features augmented by corpus for the trigger and role stages")
+    assert "not augmented" not in augmented
+    assert _auxiliary_line(used, augmented=["roles"]).endswith("; features augmented by corpus for the role stage")
 
 
 def test_fit_says_where_the_conventions_differ_when_that_switched_augmentation_on(tmp_path):
@@ -259,10 +261,10 @@ def test_fit_says_where_the_conventions_differ_when_that_switched_augmentation_o
     from trainer.experiment.fitting import FitOutcome
 
     departure = "the rules' mover precision 0.30 against 0.90, z -22.9"
-    outcome = FitOutcome(tmp_path / "m.itin", "default", 400, 5, {}, augmented=True, departures=[departure])
+    outcome = FitOutcome(tmp_path / "m.itin", "default", 400, 5, {}, augmented=["roles"], departures=[departure])
     (note,) = _training_notes(outcome)
-    assert note.startswith(f"annotation conventions differ from the auxiliary corpora's ({departure}), so features "
-                           "were augmented by corpus")
+    assert note.startswith(f"annotation conventions differ from the auxiliary corpora's ({departure}), so the role "
+                           "stage's features were augmented by corpus")
     assert "augment_if_conventions_differ" in note and "docs/real-prose.md" in note
     assert _training_notes(FitOutcome(tmp_path / "m.itin", "default", 400, 5, {})) == []
 

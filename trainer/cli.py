@@ -223,7 +223,7 @@ def _training_notes(outcome: FitOutcome) -> list[str]:
         notes.append(f"alignment: {outcome.widened} span(s) widened to token boundaries, {outcome.dropped} dropped")
     if outcome.departures:
         notes.append(f"annotation conventions differ from the auxiliary corpora's ({'; '.join(outcome.departures)}), "
-                     "so features were augmented by corpus ([auxiliary] augment_if_conventions_differ; "
+                     "so the role stage's features were augmented by corpus ([auxiliary] augment_if_conventions_differ; "
                      "docs/real-prose.md)")
     if outcome.trigger_threshold is not None:
         notes.append(f"trigger threshold {outcome.trigger_threshold:.2f}, chosen on inner folds of the training docs; "
@@ -232,13 +232,14 @@ def _training_notes(outcome: FitOutcome) -> list[str]:
     return notes
 
 
-def _auxiliary_line(used: dict, *, augmented: bool) -> str:
+def _auxiliary_line(used: dict, *, augmented: list[str]) -> str:
     """What one auxiliary corpus brought to a training run (its entry in the model's metadata)."""
     outside = ", ".join(f"{role} {count}" for role, count in used["role_spans_left_out"].items())
     return (f"auxiliary corpus '{used['name']}' ({used['source']}): {used['records']} record(s) joined training, "
             f"{used['left_out_shared_with_target']} left out (doc or id shared with the training corpus)"
             + (f"; role spans outside the inventory left out: {outside}" if outside else "")
-            + ("; features augmented by corpus" if augmented else
+            + (f"; features augmented by corpus for the {' and '.join(s.removesuffix('s') for s in augmented)} "
+               f"stage{'s' if len(augmented) > 1 else ''}" if augmented else
                "; not augmented (if your annotation departs from its conventions, --augment lets yours win: "
                "docs/real-prose.md)"))
 

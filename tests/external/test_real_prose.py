@@ -117,3 +117,21 @@ def test_relabelling_under_other_conventions_changes_only_what_it_names() -> Non
     assert changed == 1 and more[0].events == (Event((3, 9)), left, by_pronoun)
     assert [record.span_text(span) for span in ((24, 32), (33, 37), (55, 59), (60, 66), (3, 9))] == [
         "the mule", "that", "left", "Caddow", "halted"]
+
+
+def test_rebounding_role_spans_cuts_them_to_their_head_or_widens_them_to_their_preposition(nlp) -> None:
+    from trainer.corpus.records import Event, Record, RoleSpan
+
+    bench = load_bench("real_prose")
+    text = "The pack train wound through the Sallow Gap towards the lake."
+    event = Event((15, 20), (RoleSpan("mover", (0, 14)), RoleSpan("path", (29, 43)), RoleSpan("destination", (52, 60))))
+    record = Record("b-1-s1", "b-1", text, (event,))
+    (heads,), changed = bench.rebounded([record], nlp, "head")
+    assert changed == 3 and [text[a:b] for a, b in (r.span for r in heads.events[0].roles)] == ["train", "Gap", "lake"]
+    (wide,), changed = bench.rebounded([record], nlp, "preposition")
+    # The mover has no preposition before it; the path and the destination take theirs.
+    assert changed == 2 and [text[a:b] for a, b in (r.span for r in wide.events[0].roles)] == [
+        "The pack train", "through the Sallow Gap", "towards the lake"]
+    assert wide.events[0].trigger == heads.events[0].trigger == (15, 20) and wide.text == record.text
+    with pytest.raises(ValueError, match="use one of"):
+        bench.rebounded([record], nlp, "tail")

@@ -22,8 +22,8 @@ def test_target_and_auxiliary_sentences_share_only_the_unprefixed_features() -> 
     doc = make_doc(REACHED_TARN)
     featurizer = Featurizer(FeatureConfig(groups=["lexical"]), load_lexicons())
     plain = featurizer.token_features(doc)
-    target = featurizer.token_features(doc, domain=TARGET_DOMAIN)
-    aux = featurizer.token_features(doc, domain="demo")
+    target = [augment(features, TARGET_DOMAIN) for features in featurizer.token_features(doc)]
+    aux = [augment(features, "demo") for features in featurizer.token_features(doc)]
     shared = set(plain[1])
     assert set(target[1]) & set(aux[1]) == shared | {DOMAIN_KEY}  # the domain name itself is a feature too
     assert (target[1][DOMAIN_KEY], aux[1][DOMAIN_KEY]) == ("target", "demo")
@@ -34,7 +34,7 @@ def test_target_and_auxiliary_sentences_share_only_the_unprefixed_features() -> 
 def test_trigger_relative_features_follow_the_domain_of_the_token_features() -> None:
     doc = make_doc(REACHED_TARN)
     featurizer = Featurizer(FeatureConfig(groups=["lexical", "trigger_relative"]), load_lexicons())
-    roles = featurizer.role_features(doc, (1, 2), featurizer.token_features(doc, domain="demo"))
+    roles = featurizer.role_features(doc, (1, 2), [augment(f, "demo") for f in featurizer.token_features(doc)])
     assert roles[3]["t_side"] == "after" and roles[3]["demo~t_side"] == "after"
     assert roles[3][DOMAIN_KEY] == "demo"
     assert "demo~" + DOMAIN_KEY not in roles[3]

@@ -59,3 +59,30 @@ def test_rule_agreement_counts_the_rules_roles_against_the_gold_ones(nlp):
     assert (other["mover", "precision"], other["mover", "precision_n"], other["mover", "recall_n"]) == (0, 1, 0)
     assert (other["destination", "precision"], other["path", "recall"], other["path", "recall_n"]) == (0, 0, 1)
     assert (other["source", "precision"], other["source", "recall"]) == (1, 1)
+
+
+def test_rule_agreement_counts_the_rules_boundaries_on_the_gold_roles_they_meet(nlp):
+    doc = nlp("We crossed the Sallow Gap to the lake.")  # the rules: mover We, path the Sallow Gap, destination the lake
+    lexicons = load_lexicons()
+    gold_as_ours = [(0, 1, "mover"), (2, 5, "path"), (6, 8, "destination")]
+    same = rule_agreement([doc], [[(1, 2)]], [[gold_as_ours]], lexicons)
+    assert [same[role, "boundaries"] for role in ("mover", "path", "destination")] == [1, 1, 1]
+    assert [same[role, "boundaries_n"] for role in ("mover", "path", "destination")] == [1, 1, 1]
+    # Another convention: places marked by their head word only, or with their preposition.
+    heads = rule_agreement([doc], [[(1, 2)]], [[[(0, 1, "mover"), (4, 5, "path"), (7, 8, "destination")]]], lexicons)
+    assert [(heads[r, "boundaries"], heads[r, "boundaries_n"]) for r in ("mover", "path", "destination")] == [
+        (1, 1), (0, 1), (0, 1)]
+    assert heads["path", "precision"] == 1  # still the same roles by overlap: only the boundaries differ
+    wide = rule_agreement([doc], [[(1, 2)]], [[[(0, 1, "mover"), (2, 5, "path"), (5, 8, "destination")]]], lexicons)
+    assert (wide["destination", "boundaries"], wide["destination", "boundaries_n"]) == (0, 1)
+    # A rule role that meets no gold role has no boundaries to compare.
+    none = rule_agreement([doc], [[(1, 2)]], [[[(0, 1, "mover")]]], lexicons)
+    assert none["path", "boundaries_n"] == 0 and none["path", "precision_n"] == 1
+
+
+def test_a_fall_in_matching_boundaries_is_a_departure():
+    aux = _counts("path", "boundaries", 390, 420)  # about the packaged corpus's share (0.93)
+    (found,) = departures(_counts("path", "boundaries", 7, 68), aux, ROLES)  # head words only (about 0.10)
+    assert (found.role, found.measure, found.target, found.auxiliary) == ("path", "boundaries", 0.103, 0.929)
+    assert found.describe() == f"the rules' path spans on the gold boundaries 0.10 against 0.93, z {found.z:.1f}"
+    assert departures(_counts("path", "boundaries", 64, 69), aux, ROLES) == []  # the real-prose corpus as annotated

@@ -11,6 +11,7 @@ from trainer.cli import app
 from trainer.config import config_from_dict
 from trainer.errors import ConfigError
 from trainer.models.explain import explain_extractor, explain_stage, explanation_text
+from trainer.models.extractor import StageFeatures
 from trainer.models.persist import save_model
 from trainer.models.rules import RuleTriggerFinder
 from trainer.models.sequence import CRFTagger, LogisticTagger
@@ -110,7 +111,7 @@ def test_span_explanations_sum_each_features_weight_over_the_span_tokens() -> No
     labeller = SimpleNamespace(tagger=LogisticTagger().fit(X, mover),
                                featurizer=SimpleNamespace(role_features=lambda d, trigger, base: base))
     crf = CRFTagger().fit(X, [[t.replace("-T", "-TRIGGER") for t in tags] for tags in Y])  # the stage's label
-    extractor = SimpleNamespace(prediction_features=lambda docs: [features], role_labeller=labeller,
+    extractor = SimpleNamespace(prediction_features=lambda docs: StageFeatures([features], [features]), role_labeller=labeller,
                                 trigger_finder=SimpleNamespace(tagger=crf))
     record = Record("r1", "d-1", doc.text, (Event((3, 8), (RoleSpan("mover", (0, 2)),)),))
     explained = span_explanations(extractor, [doc], [record], top=3)["r1"]
@@ -136,7 +137,7 @@ def test_span_explanations_skip_rule_stages_and_spans_off_the_tokens(crf) -> Non
     from trainer.models.explain import span_explanations
 
     doc = Doc(Vocab(), words=["we", "go"])
-    rules = SimpleNamespace(prediction_features=lambda docs: [[{"w": "we"}, {"w": "go"}]],
+    rules = SimpleNamespace(prediction_features=lambda docs: StageFeatures(*[[[{"w": "we"}, {"w": "go"}]]] * 2),
                             trigger_finder=RuleTriggerFinder(None), role_labeller=RuleTriggerFinder(None))
     assert span_explanations(rules, [doc], [Record("r", "d", doc.text, (Event((3, 5), ()),))]) == {}
     assert span_explanations(rules, [], []) == {}

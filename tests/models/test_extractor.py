@@ -136,8 +136,8 @@ def test_a_roles_confidence_is_that_of_the_whole_instance_trigger_included(demo,
     trained, docs = demo["models"]["crf"], demo["test_docs"]
     model = trained.extractor
     features = model.prediction_features(docs)
-    triggers = model.trigger_finder.predict(docs, features)
-    own = model.role_labeller.predict(docs, triggers, features)
+    triggers = model.trigger_finder.predict(docs, features.triggers)
+    own = model.role_labeller.predict(docs, triggers, features.roles)
     raw_triggers, joint = model.raw_predictions(docs)
     assert raw_triggers == triggers
     assert [[[r[:3] for r in event] for event in sentence] for sentence in joint] == \
@@ -149,7 +149,7 @@ def test_a_roles_confidence_is_that_of_the_whole_instance_trigger_included(demo,
 
     gold = [[(f, e) for f, e, _ in ts] for ts in triggers]
     _, given = model.raw_predictions(docs, gold)
-    assert given == model.role_labeller.predict(docs, [[(f, e, 1.0) for f, e in ts] for ts in gold], features)
+    assert given == model.role_labeller.predict(docs, [[(f, e, 1.0) for f, e in ts] for ts in gold], features.roles)
 
     old = copy.copy(model)
     del old.joint_role_confidence_

@@ -11,7 +11,7 @@ from trainer.corpus.reader import read_corpus
 from trainer.evaluation.scoring import count_corpus
 from trainer.features.extract import DOMAIN_KEY
 from trainer.models.extractor import THRESHOLD_GRID, MotionExtractor, best_threshold
-from trainer.models.training import fit_extractor, tuned_trigger_threshold
+from trainer.models.training import TrainedExtractor, fit_extractor, tuned_trigger_threshold
 from trainer.parsing.parse import parse_records
 
 pytestmark = pytest.mark.slow
@@ -93,9 +93,10 @@ def test_auxiliary_corpora_join_training_with_their_own_domain_and_predictions_u
     assert aux["name"] == "demo" and aux["left_out_shared_with_target"] == len(demo["train"])
     assert aux["records"] == 1448 - len(demo["train"])
     extractor: MotionExtractor = trained.extractor
-    assert extractor.domains_ == ["demo", "target"]
+    assert extractor.domains_ == ["demo", "target"] and extractor.augmented_stages_ == ("triggers", "roles")
     features = extractor.prediction_features(demo["test_docs"][:1])
-    assert features[0][0][DOMAIN_KEY] == "target" and "target~lower" in features[0][0]
+    assert features.triggers is features.roles  # both stages augmented: one feature list serves both
+    assert features.triggers[0][0][DOMAIN_KEY] == "target" and "target~lower" in features.triggers[0][0]
     weights = extractor.trigger_finder.tagger.crf_.state_features_
     assert any(name.startswith("demo~") for name, _ in weights)
     assert any(name.startswith("target~") for name, _ in weights)
@@ -104,11 +105,13 @@ def test_auxiliary_corpora_join_training_with_their_own_domain_and_predictions_u
 PRONOUNS = {"i", "we", "he", "she", "it", "they", "me", "us", "him", "them", "who", "which", "that"}
 
 
-def test_features_are_augmented_only_when_the_annotation_departs_from_the_auxiliary_corpus(demo, nlp):
+def test_features_are_augmented_only_when_the_annotation_departs_from_the_auxiliary_corpus(demo, nlp, monkeypatch):
     config = config_from_dict({**_config(demo["tmp"], groups=["lexical", "lexicon"]).to_dict(),
                                "auxiliary": {"corpora": ["packaged:demo"], "augment_if_conventions_differ": True}})
     same = fit_extractor(demo["train"], config, nlp=nlp, docs=demo["train_docs"]).extractor
-    assert same.departures_ == [] and same.domains_ == []  # the demo's own guide: trained as without the option
+    assert same.departures_ == [] and same.domains_ == [] and same.augmented_stages_ == ()  # the demo's own guide
+    plain = same.prediction_features(demo["test_docs"][:1])
+    assert plain.triggers is plain.roles and "target~lower" not in plain.triggers[0][0]
     # The same sentences as a team that never marks a pronoun as mover would annotate them.
     relabelled = [r.with_events([replace(e, roles=tuple(x for x in e.roles if not (
         x.role == "mover" and r.text[x.span[0]:x.span[1]].lower() in PRONOUNS))) for e in r.events])
@@ -121,7 +124,29 @@ def test_features_are_augmented_only_when_the_annotation_departs_from_the_auxili
     assert (departure.role, departure.measure) == ("mover", "precision")
     assert departure.auxiliary - departure.target >= 0.10 and departure.z <= -3.0
     assert other.domains_ == ["demo", "target"]  # so the target's own copies of the features can win
-    assert "target~lower" in other.prediction_features(demo["test_docs"][:1])[0][0]
+    assert other.augmented_stages_ == ("roles",)  # a departure of the roles: the trigger stage keeps pooled features
+    features = other.prediction_features(demo["test_docs"][:1])
+    assert "target~lower" in features.roles[0][0] and "target~lower" not in features.triggers[0][0]
+    assert {k: v for k, v in features.roles[0][0].items() if "~" not in k and k != DOMAIN_KEY} == features.triggers[0][0]
+    trigger_weights = other.trigger_finder.tagger.crf_.state_features_
+    assert not any("~" in name for name, _ in trigger_weights)
+    role_weights = other.role_labeller.tagger.crf_.state_features_
+    assert any(name.startswith("target~") for name, _ in role_weights)
+    assert any(name.startswith("demo~") for name, _ in role_weights)
+    # Uncertainty reads each stage's own features: pooled for the triggers, the target's copies for the roles.
+    from trainer.models import uncertainty
+
+    seen: dict[str, set] = {"trigger": set(), "role": set()}
+    real = uncertainty._tagger_decisions
+
+    def spy(tagger, X, stage):
+        seen[stage].update(sentence[0].get(DOMAIN_KEY, "none") for sentence in X if sentence)
+        return real(tagger, X, stage)
+
+    monkeypatch.setattr(uncertainty, "_tagger_decisions", spy)
+    trained = TrainedExtractor(other, config, "test-pipeline")
+    assert len(uncertainty.uncertainty_parts(trained, demo["test"][:20], demo["test_docs"][:20])) == 20
+    assert seen == {"trigger": {"none"}, "role": {"target"}}
 
 
 def test_uncertainty_of_an_augmented_model_reads_the_target_copies_it_predicts_with(demo, nlp, monkeypatch):

@@ -80,7 +80,7 @@ def departing_folds(per_fold: Sequence[Mapping[str, Any]]) -> dict[str, list[str
 
 def departing_folds_note(departing: Mapping[str, Sequence[str]], folds: int) -> str:
     """The sentence that introduces :func:`departing_folds` in a report (the config key follows it)."""
-    return (f"Features augmented by corpus in {len(departing)} of {folds} folds, where the training annotation "
+    return (f"Role features augmented by corpus in {len(departing)} of {folds} folds, where the training annotation "
             "departs from the auxiliary corpora's conventions")
 
 

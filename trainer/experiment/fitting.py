@@ -35,7 +35,9 @@ class FitOutcome:
     # With [trigger_model] tune_threshold: the threshold chosen and the pooled trigger F1 the inner folds gave it
     trigger_threshold: float | None = None
     trigger_threshold_f1: float | None = None
-    augmented: bool = False  # features augmented by corpus ([auxiliary] augment, or conventions that differ)
+    # The stages ("triggers", "roles") whose features were augmented by corpus: both with [auxiliary] augment,
+    # the role stage where the conventions differ
+    augmented: list[str] = field(default_factory=list)
     departures: list[str] = field(default_factory=list)  # where the conventions differ, measured against the rules
 
 
@@ -80,5 +82,5 @@ def fit_model(corpus: Sequence[Path], output: Path, settings: RunSettings, *, sk
                       alignment.widened if alignment else 0, alignment.dropped if alignment else 0,
                       dict(policy.thresholds) if policy else {}, sorted(policy.calibrators) if policy else [],
                       dict(policy.held_out) if policy else {}, list(policy.unreached) if policy else [],
-                      tuned.get("threshold"), tuned.get("inner_fold_f1"), metadata["augmentation"]["augmented"],
+                      tuned.get("threshold"), tuned.get("inner_fold_f1"), metadata["augmentation"]["stages"],
                       metadata["augmentation"]["conventions_departing"])

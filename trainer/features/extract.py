@@ -69,12 +69,12 @@ class Featurizer:
     def _sentence(self, doc: Doc, features: list[groups.Features]) -> groups.Sentence:
         return groups.Sentence(doc, self.config, self.lexicons, self.gazetteer, features)
 
-    def token_features(self, doc: Doc, *, domain: str | None = None) -> list[groups.Features]:
+    def token_features(self, doc: Doc) -> list[groups.Features]:
         """One feature dict per token, without trigger-relative features.
 
-        ``domain`` (``"target"`` or an auxiliary corpus's name) switches on
-        feature augmentation (:func:`augment`); the trigger-relative features
-        of :meth:`role_features` then follow the same domain.
+        Feature augmentation (:func:`augment`) is applied to these dicts by the
+        caller; the trigger-relative features of :meth:`role_features` then
+        follow the same domain.
         """
         own: list[groups.Features] = [{"bias": 1.0} for _ in range(len(doc))]
         sentence = self._sentence(doc, own)
@@ -83,7 +83,7 @@ class Featurizer:
             if spec.tokens is not None:
                 for features, added in zip(own, spec.tokens(sentence)):
                     features.update(added)
-        return own if domain is None else [augment(features, domain) for features in own]
+        return own
 
     def role_features(
         self, doc: Doc, trigger: tuple[int, int], base: list[groups.Features] | None = None

@@ -38,6 +38,7 @@ from spacy.tokens import Doc
 from trainer.corpus.records import Record
 
 from trainer.errors import ConfigError
+from trainer.models.extractor import StageFeatures
 from trainer.models.sequence import CRFTagger, LogisticTagger
 from trainer.models.stages import TRIGGER_LABEL, CandidateRoleLinker
 from trainer.models.training import TrainedExtractor, load_extractor, tuned_trigger_threshold
@@ -227,9 +228,9 @@ def span_explanations(extractor: Any, docs: Sequence[Doc], predicted: Sequence[R
     several triggers is explained for the first of them.
     """
     out: dict[str, dict[SpanKey, list[tuple[str, float]]]] = {}
-    features = extractor.prediction_features(docs) if predicted else []
+    features = extractor.prediction_features(docs) if predicted else StageFeatures([], [])
     trigger_tagger = getattr(extractor.trigger_finder, "tagger", None)
-    for record, doc, base in zip(predicted, docs, features):
+    for record, doc, base, role_base in zip(predicted, docs, features.triggers, features.roles):
         found: dict[SpanKey, list[tuple[str, float]]] = {}
         for event in record.events or ():
             trigger = _tokens(doc, event.trigger)
@@ -245,7 +246,8 @@ def span_explanations(extractor: Any, docs: Sequence[Doc], predicted: Sequence[R
                 key = (argument.role, int(argument.span[0]), int(argument.span[1]))
                 if span is None or key in found:
                     continue
-                listed = _top(_role_contributions(extractor.role_labeller, doc, base, trigger, span, argument.role), top)
+                listed = _top(_role_contributions(extractor.role_labeller, doc, role_base, trigger, span, argument.role),
+                              top)
                 if listed is not None:
                     found[key] = listed
         if found:

@@ -16,7 +16,7 @@ from trainer.config import ConfidenceConfig, ExperimentConfig, ModelConfig
 from trainer.corpus.auxiliary import TARGET_DOMAIN
 from trainer.corpus.records import Event, Record, RoleSpan
 from trainer.errors import ConfigError
-from trainer.features.extract import Featurizer
+from trainer.features.extract import Featurizer, augment
 from trainer.models.calibration import ConfidencePolicy, held_out_points
 from trainer.models.conventions import Departure, departures, rule_agreement
 from trainer.models.kinds import MODEL_KINDS, RoleLabeller, TriggerFinder
@@ -27,6 +27,15 @@ from trainer.parsing.align import AlignmentReport, span_to_tokens, tokens_to_spa
 
 
 THRESHOLD_GRID = tuple(round(0.05 * k, 2) for k in range(2, 13))  # 0.10 ... 0.60
+STAGES = ("triggers", "roles")  # the stages whose features may be augmented by corpus
+
+
+@dataclass(frozen=True)
+class StageFeatures:
+    """Token features per sentence as each stage reads them: the same lists unless one stage alone is augmented."""
+
+    triggers: list[list[dict]]
+    roles: list[list[dict]]
 
 
 @dataclass
@@ -93,6 +102,7 @@ class MotionExtractor:
         self.alignment_: AlignmentReport | None = None
         self.search_results_: dict[str, list[dict]] = {}
         self.domains_: list[str] = []
+        self.augmented_stages_: tuple[str, ...] = ()  # of STAGES: whose features are augmented by corpus
         self.threshold_scores_: dict[float, float] = {}
         self.departures_: list[Departure] = []
         self.confidence_: ConfidencePolicy | None = None
@@ -120,15 +130,24 @@ class MotionExtractor:
         self.trigger_finder = build_trigger_finder(trigger_config, self.featurizer)
         self.role_labeller = build_role_labeller(role_config, self.featurizer)
 
-    def _features(self, docs: Sequence[Doc], domains: Sequence[str] | None) -> list[list[dict]]:
-        """Token features of each doc, computed once and shared by both stages (augmented when domains are given)."""
-        if domains is None:
-            return [self.featurizer.token_features(d) for d in docs]
-        return [self.featurizer.token_features(d, domain=domain) for d, domain in zip(docs, domains)]
+    @property
+    def _stages_augmented(self) -> tuple[str, ...]:
+        # Model files written before augmentation by stage augmented both stages or neither.
+        return getattr(self, "augmented_stages_", STAGES if self.domains_ else ())
 
-    def prediction_features(self, docs: Sequence[Doc]) -> list[list[dict]]:
-        """Token features as this model sees new text: the target's copies when trained with augmentation."""
-        return self._features(docs, [TARGET_DOMAIN] * len(docs) if self.domains_ else None)
+    def _features(self, docs: Sequence[Doc], domains: Sequence[str]) -> StageFeatures:
+        """Token features of each doc, computed once; copied by corpus (``domains``, one per doc) for the
+        stages in ``augmented_stages_``."""
+        plain = [self.featurizer.token_features(d) for d in docs]
+        stages = self._stages_augmented
+        if not stages:
+            return StageFeatures(plain, plain)
+        augmented = [[augment(features, domain) for features in sentence] for sentence, domain in zip(plain, domains)]
+        return StageFeatures(augmented if "triggers" in stages else plain, augmented if "roles" in stages else plain)
+
+    def prediction_features(self, docs: Sequence[Doc]) -> StageFeatures:
+        """Token features as this model's stages see new text: the target's copies where trained with augmentation."""
+        return self._features(docs, [TARGET_DOMAIN] * len(docs))
 
     def _tune_trigger_threshold(self, records: Sequence[Record], docs: Sequence[Doc], targets: GoldTargets,
                                 features: list[list[dict]], domains: Sequence[str] | None) -> None:
@@ -163,8 +182,10 @@ class MotionExtractor:
 
         ``domains`` names each record's corpus: ``"target"`` or an auxiliary
         corpus's name. A tuned trigger threshold is then scored on target docs
-        only, and with ``[auxiliary] augment`` the features are augmented by
-        corpus (predictions then use the target's copies).
+        only; with ``[auxiliary] augment`` both stages' features are augmented
+        by corpus, with ``augment_if_conventions_differ`` the role stage's when
+        the target's conventions depart (:meth:`_stages_to_augment`); predictions
+        then use the target's copies.
         """
         unannotated = [r.id for r in records if not r.is_annotated]
         if unannotated:
@@ -177,19 +198,29 @@ class MotionExtractor:
         if domains is not None and len(domains) != len(records):
             raise ConfigError(f"{len(domains)} domain names for {len(records)} records", "give one domain per record")
         self.departures_ = []
-        augmenting = domains is not None and set(domains) != {TARGET_DOMAIN} and (
-            self.config.auxiliary.augment or self._conventions_differ(docs, targets, domains))
-        self.domains_ = sorted(set(domains)) if augmenting else []
-        features = self._features(docs, domains if augmenting else None)
+        self.augmented_stages_ = self._stages_to_augment(docs, targets, domains)
+        self.domains_ = sorted(set(domains or ())) if self.augmented_stages_ else []
+        features = self._features(docs, domains or [TARGET_DOMAIN] * len(docs))
         if self.config.trigger_model.tune_threshold and isinstance(self.trigger_finder, SequenceTriggerFinder):
-            self._tune_trigger_threshold(records, docs, targets, features, domains)
+            self._tune_trigger_threshold(records, docs, targets, features.triggers, domains)
         if self.config.confidence.calibration != "none" or self.config.confidence.thresholds != "none":
             self._learn_confidence(records, docs, targets, domains)
-        self.trigger_finder.fit(docs, targets.triggers, features)
+        self.trigger_finder.fit(docs, targets.triggers, features.triggers)
         with_triggers = [i for i, ts in enumerate(targets.triggers) if ts]
         self.role_labeller.fit([docs[i] for i in with_triggers], [targets.triggers[i] for i in with_triggers],
-                               [targets.roles[i] for i in with_triggers], [features[i] for i in with_triggers])
+                               [targets.roles[i] for i in with_triggers], [features.roles[i] for i in with_triggers])
         return self
+
+    def _stages_to_augment(self, docs: Sequence[Doc], targets: GoldTargets,
+                           domains: Sequence[str] | None) -> tuple[str, ...]:
+        """Which of :data:`STAGES` get features augmented by corpus: both with ``[auxiliary] augment``; with
+        ``augment_if_conventions_differ``, the role stage when the target's annotation departs from the auxiliary
+        corpora's (every departure the rules measure is of the roles); none without auxiliary records."""
+        if domains is None or set(domains) == {TARGET_DOMAIN}:
+            return ()
+        if self.config.auxiliary.augment:
+            return STAGES
+        return ("roles",) if self._conventions_differ(docs, targets, domains) else ()
 
     def _conventions_differ(self, docs: Sequence[Doc], targets: GoldTargets, domains: Sequence[str]) -> bool:
         """With ``[auxiliary] augment_if_conventions_differ``: whether the target's annotation departs from the
@@ -249,8 +280,8 @@ class MotionExtractor:
         if gold is not None:
             triggers = [[(f, e, 1.0) for f, e in ts] for ts in gold]
         else:
-            triggers = self.trigger_finder.predict(docs, features)
-        roles = self.role_labeller.predict(docs, triggers, features)
+            triggers = self.trigger_finder.predict(docs, features.triggers)
+        roles = self.role_labeller.predict(docs, triggers, features.roles)
         if getattr(self, "joint_role_confidence_", False):
             roles = [[[(f, e, role, q * trigger[2]) for f, e, role, q in arguments]
                       for trigger, arguments in zip(sentence_triggers, sentence_roles)]

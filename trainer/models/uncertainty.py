@@ -189,9 +189,9 @@ def uncertainty_parts(
     if len(docs) != len(records):
         raise ConfigError(f"{len(records)} records but {len(docs)} docs", "pass one parsed doc per record, in order")
     features = trained.extractor.prediction_features(docs)  # the extractor's own feature path, computed once
-    trigger_parts = _trigger_decisions(trained, features)
-    triggers = trained.extractor.trigger_finder.predict(docs, features)  # what the extractor would predict
-    role_parts = _role_decisions(trained, docs, triggers, features)
+    trigger_parts = _trigger_decisions(trained, features.triggers)
+    triggers = trained.extractor.trigger_finder.predict(docs, features.triggers)  # what the extractor would predict
+    role_parts = _role_decisions(trained, docs, triggers, features.roles)
     return [RecordUncertainty(trigger=score(t), role=score(r)) for t, r in zip(trigger_parts, role_parts)]
 
 
