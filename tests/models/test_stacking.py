@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import copy
 from dataclasses import replace
 
 import pytest
@@ -97,6 +98,10 @@ def test_auxiliary_corpora_join_training_with_their_own_domain_and_predictions_u
     features = extractor.prediction_features(demo["test_docs"][:1])
     assert features.triggers is features.roles  # both stages augmented: one feature list serves both
     assert features.triggers[0][0][DOMAIN_KEY] == "target" and "target~lower" in features.triggers[0][0]
+    # A model file written before augmentation by stage (no augmented_stages_) augmented both stages or neither.
+    old = copy.copy(extractor)
+    del old.augmented_stages_
+    assert old.prediction_features(demo["test_docs"][:1]) == features
     weights = extractor.trigger_finder.tagger.crf_.state_features_
     assert any(name.startswith("demo~") for name, _ in weights)
     assert any(name.startswith("target~") for name, _ in weights)
@@ -112,6 +117,9 @@ def test_features_are_augmented_only_when_the_annotation_departs_from_the_auxili
     assert same.departures_ == [] and same.domains_ == [] and same.augmented_stages_ == ()  # the demo's own guide
     plain = same.prediction_features(demo["test_docs"][:1])
     assert plain.triggers is plain.roles and "target~lower" not in plain.triggers[0][0]
+    legacy = copy.copy(same)  # as a model file written before augmentation by stage
+    del legacy.augmented_stages_
+    assert legacy.prediction_features(demo["test_docs"][:1]) == plain
     # The same sentences as a team that never marks a pronoun as mover would annotate them.
     relabelled = [r.with_events([replace(e, roles=tuple(x for x in e.roles if not (
         x.role == "mover" and r.text[x.span[0]:x.span[1]].lower() in PRONOUNS))) for e in r.events])
