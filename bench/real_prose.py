@@ -272,7 +272,7 @@ def convention_lines(records: Sequence[Record], *, jobs: int = 1) -> list[str]:
         systems[0].auxiliary, augment=False, augment_if_conventions_differ=False)))
     nlp = parser_for(systems[0])
     lines = ["labels | changed | " + " | ".join(
-        f"{c.name}: role F1 exact / overlap, mover F1, trigger F1 (folds that departed)" for c in systems)]
+        f"{c.name}: role F1 exact / overlap, mover F1, trigger F1" for c in systems)]
     for description, pronouns, forms, boundaries in (("as annotated", frozenset(), frozenset(), None), *CONVENTIONS):
         changed_records, changed = relabelled(records, pronouns, forms)
         if boundaries is not None:
@@ -283,9 +283,12 @@ def convention_lines(records: Sequence[Record], *, jobs: int = 1) -> list[str]:
         for system in run.systems:
             exact, overlap = (pool_folds(system, fold_counts(run, system, roles=system.config.roles, mode=mode)
                                          ).scores() for mode in ("exact", "overlap"))
-            departed = sum(bool(fold.departures) for fold in system.folds)
-            cells.append(f"{exact.micro.f1:.3f} / {overlap.micro.f1:.3f}, {overlap.per_role['mover'].f1:.3f}, "
-                         f"{overlap.trigger.f1:.3f} ({departed} of {len(system.folds)})")
+            cell = (f"{exact.micro.f1:.3f} / {overlap.micro.f1:.3f}, {overlap.per_role['mover'].f1:.3f}, "
+                    f"{overlap.trigger.f1:.3f}")
+            auxiliary = system.config.auxiliary
+            if auxiliary.augment_if_conventions_differ and not auxiliary.augment:  # the folds it chose to augment
+                cell += f" ({sum(bool(f.departures) for f in system.folds)} of {len(system.folds)} folds departed)"
+            cells.append(cell)
         lines.append(f"{description} | {changed} | " + " | ".join(cells))
     return lines
 
