@@ -224,7 +224,9 @@ def _training_notes(outcome: FitOutcome) -> list[str]:
     if outcome.departures:
         notes.append(f"annotation conventions differ from the auxiliary corpora's ({'; '.join(outcome.departures)}), "
                      "so the role stage's features were augmented by corpus ([auxiliary] augment_if_conventions_differ; "
-                     "docs/real-prose.md)")
+                     "docs/real-prose.md)"
+                     + ("; they differ only in where role spans start and end: if you score by overlap alone, "
+                        "--no-augment may score higher by overlap" if outcome.boundaries_only else ""))
     if outcome.trigger_threshold is not None:
         notes.append(f"trigger threshold {outcome.trigger_threshold:.2f}, chosen on inner folds of the training docs; "
                      f"trigger F1 on their held-out docs {outcome.trigger_threshold_f1:.3f} (exact token ranges; an "

@@ -39,6 +39,7 @@ class FitOutcome:
     # the role stage where the conventions differ
     augmented: list[str] = field(default_factory=list)
     departures: list[str] = field(default_factory=list)  # where the conventions differ, measured against the rules
+    boundaries_only: bool = False  # every departure is of span boundaries (none of which spans are roles)
 
 
 def fit_model(corpus: Sequence[Path], output: Path, settings: RunSettings, *, skip_bad: bool = False, jobs: int = 1,
@@ -83,4 +84,6 @@ def fit_model(corpus: Sequence[Path], output: Path, settings: RunSettings, *, sk
                       dict(policy.thresholds) if policy else {}, sorted(policy.calibrators) if policy else [],
                       dict(policy.held_out) if policy else {}, list(policy.unreached) if policy else [],
                       tuned.get("threshold"), tuned.get("inner_fold_f1"), metadata["augmentation"]["stages"],
-                      metadata["augmentation"]["conventions_departing"])
+                      metadata["augmentation"]["conventions_departing"],
+                      bool(trained.extractor.departures_)
+                      and all(d.measure == "boundaries" for d in trained.extractor.departures_))
