@@ -36,6 +36,7 @@ def test_a_clear_fall_in_the_rules_agreement_is_a_departure_and_nothing_else_is(
     assert (found.role, found.measure, found.target, found.auxiliary) == ("mover", "precision", 0.3, 0.9)
     assert found.z < -MIN_Z
     assert found.describe() == f"the rules' mover precision 0.30 against 0.90, z {found.z:.1f}"
+    assert not found.of_boundaries
     # A gap under MIN_GAP is no departure, however many examples back it.
     assert departures(_counts("mover", "precision", 8500, 10000), aux, ROLES) == []
     # Nor is a large gap on a handful of examples (0.60 against 0.90 on 5 movers: z is about -2.1).
@@ -85,4 +86,5 @@ def test_a_fall_in_matching_boundaries_is_a_departure():
     (found,) = departures(_counts("path", "boundaries", 7, 68), aux, ROLES)  # head words only (about 0.10)
     assert (found.role, found.measure, found.target, found.auxiliary) == ("path", "boundaries", 0.103, 0.929)
     assert found.describe() == f"the rules' path spans on the gold boundaries 0.10 against 0.93, z {found.z:.1f}"
+    assert found.of_boundaries
     assert departures(_counts("path", "boundaries", 64, 69), aux, ROLES) == []  # the real-prose corpus as annotated

@@ -86,4 +86,4 @@ def fit_model(corpus: Sequence[Path], output: Path, settings: RunSettings, *, sk
                       tuned.get("threshold"), tuned.get("inner_fold_f1"), metadata["augmentation"]["stages"],
                       metadata["augmentation"]["conventions_departing"],
                       bool(trained.extractor.departures_)
-                      and all(d.measure == "boundaries" for d in trained.extractor.departures_))
+                      and all(d.of_boundaries for d in trained.extractor.departures_))

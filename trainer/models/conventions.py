@@ -38,7 +38,7 @@ from spacy.tokens import Doc
 from trainer.features.lexicons import Lexicons
 from trainer.features.rule_cues import rule_roles
 
-MIN_GAP = 0.10  # smallest departure in the rules' precision or recall on one role that counts
+MIN_GAP = 0.10  # smallest fall in one of MEASURES on one role that counts as a departure
 MIN_Z = 3.0  # and how far it must stand clear of sampling noise (two-proportion z statistic)
 MEASURES = ("precision", "recall", "boundaries")  # what is compared, per role; see rule_agreement
 
@@ -55,8 +55,13 @@ class Departure:
     auxiliary: float
     z: float
 
+    @property
+    def of_boundaries(self) -> bool:
+        """Whether this departure is of where spans start and end, not of which spans are roles."""
+        return self.measure == "boundaries"
+
     def describe(self) -> str:
-        what = "spans on the gold boundaries" if self.measure == "boundaries" else self.measure
+        what = "spans on the gold boundaries" if self.of_boundaries else self.measure
         return f"the rules' {self.role} {what} {self.target:.2f} against {self.auxiliary:.2f}, z {self.z:.1f}"
 
 

@@ -162,7 +162,7 @@ def save_extractor(trained: TrainedExtractor, path: Path | str, *, records: Sequ
         },
         "auxiliary_corpora": trained.auxiliary,
         "augmentation": {"augmented": bool(trained.extractor.domains_),
-                         "stages": list(getattr(trained.extractor, "augmented_stages_", ())),
+                         "stages": list(trained.extractor.augmented_stages_),
                          "conventions_departing": [d.describe() for d in trained.extractor.departures_]},
         "trigger_threshold": tuned_trigger_threshold(trained.extractor),
         "training_seconds": round(training_seconds, 2),
