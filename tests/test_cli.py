@@ -263,15 +263,24 @@ def test_fit_says_where_the_conventions_differ_when_that_switched_augmentation_o
     departure = "the rules' mover precision 0.30 against 0.90, z -22.9"
     outcome = FitOutcome(tmp_path / "m.itin", "default", 400, 5, {}, augmented=["roles"], departures=[departure])
     (note,) = _training_notes(outcome)
-    assert note.startswith(f"annotation conventions differ from the auxiliary corpora's ({departure}), so the role "
-                           "stage's features were augmented by corpus")
+    assert note.startswith(f"annotation conventions differ from the auxiliary corpora's ({departure}), so the "
+                           "features of the role stage were augmented by corpus")
     assert "augment_if_conventions_differ" in note and "docs/real-prose.md" in note
     assert "--no-augment" not in note  # which spans are roles differs: augmenting helps by overlap too
     boundaries = "the rules' path spans on the gold boundaries 0.10 against 0.94, z -16.5"
     (note,) = _training_notes(FitOutcome(tmp_path / "m.itin", "default", 400, 5, {}, augmented=["roles"],
                                          departures=[boundaries], boundaries_only=True))
-    assert note.endswith("they differ only in where role spans start and end: if you score by overlap alone, "
+    assert note.endswith("they differ only in where spans start and end: if you score by overlap alone, "
                          "--no-augment may score higher by overlap")
+    # A team that marks the verb group (`had crossed`): the trigger stage's features are augmented.
+    verb_group = "the rules' trigger spans on the gold boundaries 0.80 against 0.91, z -5.3"
+    (note,) = _training_notes(FitOutcome(tmp_path / "m.itin", "default", 400, 5, {}, augmented=["triggers"],
+                                         departures=[verb_group], boundaries_only=True))
+    assert f"({verb_group}), so the features of the trigger stage were augmented by corpus" in note
+    (note,) = _training_notes(FitOutcome(tmp_path / "m.itin", "default", 400, 5, {}, augmented=["triggers", "roles"],
+                                         departures=[verb_group, departure]))
+    assert "so the features of the trigger and role stages were augmented by corpus" in note
+    assert "--no-augment" not in note
     assert _training_notes(FitOutcome(tmp_path / "m.itin", "default", 400, 5, {})) == []
 
 

@@ -12,7 +12,7 @@ import sys
 import time
 from contextlib import contextmanager
 from pathlib import Path
-from typing import TYPE_CHECKING, Annotated, Callable, Optional, get_args, get_origin
+from typing import TYPE_CHECKING, Annotated, Callable, Optional, Sequence, get_args, get_origin
 
 import typer
 import typer.core
@@ -223,9 +223,9 @@ def _training_notes(outcome: FitOutcome) -> list[str]:
         notes.append(f"alignment: {outcome.widened} span(s) widened to token boundaries, {outcome.dropped} dropped")
     if outcome.departures:
         notes.append(f"annotation conventions differ from the auxiliary corpora's ({'; '.join(outcome.departures)}), "
-                     "so the role stage's features were augmented by corpus ([auxiliary] augment_if_conventions_differ; "
-                     "docs/real-prose.md)"
-                     + ("; they differ only in where role spans start and end: if you score by overlap alone, "
+                     f"so the features of the {_stages(outcome.augmented)} were augmented by corpus ([auxiliary] "
+                     "augment_if_conventions_differ; docs/real-prose.md)"
+                     + ("; they differ only in where spans start and end: if you score by overlap alone, "
                         "--no-augment may score higher by overlap" if outcome.boundaries_only else ""))
     if outcome.trigger_threshold is not None:
         notes.append(f"trigger threshold {outcome.trigger_threshold:.2f}, chosen on inner folds of the training docs; "
@@ -234,14 +234,18 @@ def _training_notes(outcome: FitOutcome) -> list[str]:
     return notes
 
 
+def _stages(stages: Sequence[str]) -> str:
+    """``("triggers", "roles")`` as ``trigger and role stages``, ``("roles",)`` as ``role stage``."""
+    return f"{' and '.join(s.removesuffix('s') for s in stages)} stage{'s' if len(stages) > 1 else ''}"
+
+
 def _auxiliary_line(used: dict, *, augmented: list[str]) -> str:
     """What one auxiliary corpus brought to a training run (its entry in the model's metadata)."""
     outside = ", ".join(f"{role} {count}" for role, count in used["role_spans_left_out"].items())
     return (f"auxiliary corpus '{used['name']}' ({used['source']}): {used['records']} record(s) joined training, "
             f"{used['left_out_shared_with_target']} left out (doc or id shared with the training corpus)"
             + (f"; role spans outside the inventory left out: {outside}" if outside else "")
-            + (f"; features augmented by corpus for the {' and '.join(s.removesuffix('s') for s in augmented)} "
-               f"stage{'s' if len(augmented) > 1 else ''}" if augmented else
+            + (f"; features augmented by corpus for the {_stages(augmented)}" if augmented else
                "; not augmented (if your annotation departs from its conventions, --augment lets yours win: "
                "docs/real-prose.md)"))
 

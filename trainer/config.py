@@ -92,9 +92,9 @@ class AuxiliaryConfig:
     ``packaged:<name>`` for a corpus shipped with itinerant (``packaged:demo``).
     ``augment`` copies each feature of both stages into a shared and a
     per-corpus version (Daumé III 2007), so the model can learn where the other
-    books differ. ``augment_if_conventions_differ`` augments the role stage's
-    features only when the training corpus's annotation departs from the
-    auxiliary corpora's, measured against the rules
+    books differ. ``augment_if_conventions_differ`` augments a stage's
+    features only when the training corpus's annotation of its triggers or of
+    its roles departs from the auxiliary corpora's, measured against the rules
     (:mod:`trainer.models.conventions`).
     """
 

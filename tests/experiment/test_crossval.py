@@ -210,5 +210,5 @@ def test_serial_progress_says_when_a_fold_augmented_its_features_because_the_con
     agreed = FoldOutput("default", 0, 2, [], [], 3.0, 1.0, 90)
     lines: list[str] = []
     _serial([(lambda: departed, (), {}), (lambda: agreed, (), {})], lines.append)
-    assert lines == ["[1/2] default repeat 0 fold 1: trained on 80 records in 2.0 s; role features augmented by corpus, "
-                     "the conventions differ", "[2/2] default repeat 0 fold 2: trained on 90 records in 3.0 s"]
+    assert lines == ["[1/2] default repeat 0 fold 1: trained on 80 records in 2.0 s; features augmented by corpus "
+                     "where the conventions differ", "[2/2] default repeat 0 fold 2: trained on 90 records in 3.0 s"]

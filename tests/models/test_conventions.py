@@ -9,7 +9,7 @@ import pytest
 from scipy.stats import chi2_contingency
 
 from trainer.features.lexicons import load_lexicons
-from trainer.models.conventions import MIN_GAP, MIN_Z, _z, departures, rule_agreement
+from trainer.models.conventions import MIN_GAP, MIN_Z, TRIGGER, _z, departures, rule_agreement
 
 ROLES = ("mover", "source", "path", "destination")
 
@@ -88,3 +88,27 @@ def test_a_fall_in_matching_boundaries_is_a_departure():
     assert found.describe() == f"the rules' path spans on the gold boundaries 0.10 against 0.93, z {found.z:.1f}"
     assert found.of_boundaries
     assert departures(_counts("path", "boundaries", 64, 69), aux, ROLES) == []  # the real-prose corpus as annotated
+
+
+def test_rule_agreement_counts_the_boundaries_of_the_triggers_the_rules_keep(nlp):
+    doc = nlp("We had crossed the Sallow Gap and we set out for Caddow.")  # the rules keep crossed and set out
+    lexicons = load_lexicons()
+    ours = rule_agreement([doc], [[(2, 3), (8, 10)]], [[[], []]], lexicons)
+    assert (ours[TRIGGER, "boundaries"], ours[TRIGGER, "boundaries_n"]) == (2, 2)
+    # A team that marks the verb group (`had crossed`) and leaves particles out (`set`): neither trigger matches.
+    verb_groups = rule_agreement([doc], [[(1, 3), (8, 9)]], [[[], []]], lexicons)
+    assert (verb_groups[TRIGGER, "boundaries"], verb_groups[TRIGGER, "boundaries_n"]) == (0, 2)
+    # A rule trigger no gold trigger meets has no boundaries to compare; the triggers have no other measure.
+    missed = rule_agreement([doc], [[(2, 3)]], [[[]]], lexicons)
+    assert (missed[TRIGGER, "boundaries"], missed[TRIGGER, "boundaries_n"]) == (1, 1)
+    assert all(missed[TRIGGER, m] == 0 for m in ("precision", "precision_n", "recall", "recall_n"))
+
+
+def test_a_fall_in_matching_trigger_boundaries_is_a_departure_of_the_trigger_stage():
+    aux = _counts(TRIGGER, "boundaries", 1015, 1115)  # about the packaged corpus's share (0.91)
+    (found,) = departures(_counts(TRIGGER, "boundaries", 200, 250), aux, ROLES)  # verb groups marked (0.80)
+    assert (found.role, found.measure, found.stage, found.of_boundaries) == (TRIGGER, "boundaries", "triggers", True)
+    assert found.describe() == f"the rules' trigger spans on the gold boundaries 0.80 against 0.91, z {found.z:.1f}"
+    assert departures(_counts(TRIGGER, "boundaries", 240, 250), aux, ROLES) == []  # a rise: no departure
+    (role,) = departures(_counts("path", "boundaries", 7, 68), _counts("path", "boundaries", 390, 420), ROLES)
+    assert role.stage == "roles"

@@ -22,8 +22,9 @@ def _with_folds(*departing: list[str]) -> tuple[dict, dict]:
 def test_the_summary_names_each_fold_whose_features_were_augmented_for_its_conventions():
     _, system = _with_folds([DEPARTURE], [])
     lines = breakdown_lines(system, list(ROLES))
-    start = lines.index("Role features augmented by corpus in 1 of 2 folds, where the training annotation departs from "
-                        "the auxiliary corpora's conventions (`[auxiliary] augment_if_conventions_differ`):")
+    start = lines.index("Features augmented by corpus in 1 of 2 folds, for the stage (triggers or roles) whose training "
+                        "annotation departs from the auxiliary corpora's conventions "
+                        "(`[auxiliary] augment_if_conventions_differ`):")
     assert lines[start + 2] == f"- repeat 0 fold 0 (book0-1): {DEPARTURE}"
     assert not any("fold 1" in line and "rules'" in line for line in lines)
     _, plain = _with_folds([], [])
@@ -33,6 +34,6 @@ def test_the_summary_names_each_fold_whose_features_were_augmented_for_its_conve
 def test_the_page_lists_them_too_escaped():
     report, system = _with_folds([DEPARTURE], [])
     page = breakdown_section(report, system)
-    assert "Role features augmented by corpus in 1 of 2 folds" in page
+    assert "Features augmented by corpus in 1 of 2 folds" in page
     assert "<li>repeat 0 fold 0 (book0-1): the rules&#x27; mover precision 0.30 against 0.90, z -22.9</li>" in page
     assert "augmented by corpus" not in breakdown_section(*_with_folds([], []))

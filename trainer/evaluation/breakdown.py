@@ -80,8 +80,8 @@ def departing_folds(per_fold: Sequence[Mapping[str, Any]]) -> dict[str, list[str
 
 def departing_folds_note(departing: Mapping[str, Sequence[str]], folds: int) -> str:
     """The sentence that introduces :func:`departing_folds` in a report (the config key follows it)."""
-    return (f"Role features augmented by corpus in {len(departing)} of {folds} folds, where the training annotation "
-            "departs from the auxiliary corpora's conventions")
+    return (f"Features augmented by corpus in {len(departing)} of {folds} folds, for the stage (triggers or roles) "
+            "whose training annotation departs from the auxiliary corpora's conventions")
 
 
 def fold_breakdown(folds_by_mode: Mapping[str, Sequence[CorpusCounts]],

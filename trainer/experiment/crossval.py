@@ -161,7 +161,7 @@ def _serial(tasks: list, progress: Progress | None) -> list[FoldOutput]:
             held_out = {"repeat": output.repeat, "fold": output.fold, "docs": sorted({r.doc for r in output.predicted})}
             progress(f"[{number}/{len(tasks)}] {output.config} {fold_name(held_out)}: "
                      f"trained on {output.train_records} records in {output.train_seconds:.1f} s"
-                     + ("; role features augmented by corpus, the conventions differ" if output.departures else ""))
+                     + ("; features augmented by corpus where the conventions differ" if output.departures else ""))
     return outputs
 
 

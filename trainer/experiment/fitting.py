@@ -36,10 +36,10 @@ class FitOutcome:
     trigger_threshold: float | None = None
     trigger_threshold_f1: float | None = None
     # The stages ("triggers", "roles") whose features were augmented by corpus: both with [auxiliary] augment,
-    # the role stage where the conventions differ
+    # those whose annotation departs where the conventions differ
     augmented: list[str] = field(default_factory=list)
     departures: list[str] = field(default_factory=list)  # where the conventions differ, measured against the rules
-    boundaries_only: bool = False  # every departure is of span boundaries (none of which spans are roles)
+    boundaries_only: bool = False  # every departure is of span boundaries (none of which spans are triggers or roles)
 
 
 def fit_model(corpus: Sequence[Path], output: Path, settings: RunSettings, *, skip_bad: bool = False, jobs: int = 1,

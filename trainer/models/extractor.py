@@ -183,8 +183,8 @@ class MotionExtractor:
         ``domains`` names each record's corpus: ``"target"`` or an auxiliary
         corpus's name. A tuned trigger threshold is then scored on target docs
         only; with ``[auxiliary] augment`` both stages' features are augmented
-        by corpus, with ``augment_if_conventions_differ`` the role stage's when
-        the target's conventions depart (:meth:`_stages_to_augment`); predictions
+        by corpus, with ``augment_if_conventions_differ`` those of the stages whose
+        conventions the target departs on (:meth:`_stages_to_augment`); predictions
         then use the target's copies.
         """
         unannotated = [r.id for r in records if not r.is_annotated]
@@ -214,13 +214,15 @@ class MotionExtractor:
     def _stages_to_augment(self, docs: Sequence[Doc], targets: GoldTargets,
                            domains: Sequence[str] | None) -> tuple[str, ...]:
         """Which of :data:`STAGES` get features augmented by corpus: both with ``[auxiliary] augment``; with
-        ``augment_if_conventions_differ``, the role stage when the target's annotation departs from the auxiliary
-        corpora's (every departure the rules measure is of the roles); none without auxiliary records."""
+        ``augment_if_conventions_differ``, each stage whose annotation (its triggers, or its roles) departs from
+        the auxiliary corpora's; none without auxiliary records."""
         if domains is None or set(domains) == {TARGET_DOMAIN}:
             return ()
         if self.config.auxiliary.augment:
             return STAGES
-        return ("roles",) if self._conventions_differ(docs, targets, domains) else ()
+        if not self._conventions_differ(docs, targets, domains):
+            return ()
+        return tuple(stage for stage in STAGES if any(d.stage == stage for d in self.departures_))
 
     def _conventions_differ(self, docs: Sequence[Doc], targets: GoldTargets, domains: Sequence[str]) -> bool:
         """With ``[auxiliary] augment_if_conventions_differ``: whether the target's annotation departs from the
