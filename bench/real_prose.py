@@ -264,7 +264,7 @@ def rebounded(records: Sequence[Record], nlp: Language, how: str) -> tuple[list[
                 span = doc.char_span(start, end, alignment_mode="expand")
                 if span is not None and how == "head":
                     start, end = span.root.idx, span.root.idx + len(span.root.text)
-                elif span is not None and span.start > 0:
+                elif span is not None and how == "preposition" and span.start > 0:
                     before = doc[span.start - 1]
                     if before.pos_ == "ADP" and span.root.head.i == before.i:
                         start = before.idx

@@ -37,7 +37,8 @@ class FoldOutput:
     train_records: int  # of the target corpus; auxiliary corpora come on top
     # record id -> (label, start, end) -> the features that weighed most for that predicted span (if asked for)
     explanations: dict[str, dict[SpanKey, list[tuple[str, float]]]] = field(default_factory=dict)
-    # Where this fold's training annotation departs from its auxiliary corpora's conventions (role features then augmented)
+    # Where this fold's training annotation departs from its auxiliary corpora's conventions (the departing stage's
+    # features then augmented)
     departures: list[str] = field(default_factory=list)
 
 
