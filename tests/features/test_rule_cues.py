@@ -8,7 +8,7 @@ from trainer.config import FeatureConfig
 from trainer.features import groups
 from trainer.features.extract import Featurizer
 from trainer.features.lexicons import load_lexicons
-from trainer.features.rule_cues import RuleRole, RuleTrigger, rule_roles, rule_triggers
+from trainer.features.rule_cues import RuleRole, RuleTrigger, blocking_cue, rule_roles, rule_triggers
 from trainer.models.rules import RuleRoleLabeller, RuleTriggerFinder
 
 LEXICONS = load_lexicons()
@@ -186,8 +186,6 @@ def test_coordinated_places_are_roles_of_their_own() -> None:
 
 
 def test_plans_purposes_and_to_morrow_block_a_motion_verb() -> None:
-    from trainer.features.rule_cues import blocking_cue
-
     # 'He was directed to proceed to the coast.' (an order not yet carried out, per the annotation spec)
     directed = make_doc("""
 He        he        PRON   PRP  nsubjpass  2
@@ -229,8 +227,6 @@ on      on      ADP    RP   prt    9
 
 
 def test_a_time_noun_as_subject_or_object_blocks_a_motion_verb() -> None:
-    from trainer.features.rule_cues import blocking_cue
-
     # 'Night came on, and we passed an uncomfortable night by the ford; at dawn we passed the ford.'
     # 'night' and 'dawn' are time nouns by their first WordNet 3.0 sense (noun.time), 'ford' is not.
     doc = make_doc("""
@@ -259,6 +255,79 @@ ford           ford           NOUN   NN   dobj   17
     assert [blocking_cue(doc[i]) for i in (1, 6, 17)] == ["time_subject", "time_object", ""]
     assert [(t.first, t.blocked) for t in rule_triggers(doc, LEXICONS)] == [
         (1, "time_subject"), (6, "time_object"), (17, "")]
+
+
+def test_an_infinitive_complement_or_a_conditional_clause_is_not_narrated_motion() -> None:
+    # Spec, section 2: no event for hypothetical motion. Implicative verbs (`began to`, `managed to`; common
+    # practice in the semantics of complement clauses) assert that their complement happened.
+    # 'The mules seemed to fly, but we began to descend; we could not manage to cross. If we crossed, we rode.'
+    doc = make_doc("""
+The      the      DET    DT   det    1
+mules    mule     NOUN   NNS  nsubj  2
+seemed   seem     VERB   VBD  ROOT   2
+to       to       PART   TO   aux    4
+fly      fly      VERB   VB   xcomp  2
+,        ,        PUNCT  ,    punct  2
+but      but      CCONJ  CC   cc     2
+we       we       PRON   PRP  nsubj  8
+began    begin    VERB   VBD  conj   2
+to       to       PART   TO   aux    10
+descend  descend  VERB   VB   xcomp  8
+;        ;        PUNCT  :    punct  2
+we       we       PRON   PRP  nsubj  15
+could    could    AUX    MD   aux    15
+not      not      PART   RB   neg    15
+manage   manage   VERB   VB   conj   2
+to       to       PART   TO   aux    17
+cross    cross    VERB   VB   xcomp  15
+.        .        PUNCT  .    punct  2
+""")
+    assert [blocking_cue(doc[i]) for i in (4, 10, 17)] == ["infinitive", "", "negated"]
+    conditional = make_doc("""
+If       if       SCONJ  IN   mark   2
+we       we       PRON   PRP  nsubj  2
+crossed  cross    VERB   VBD  advcl  5
+,        ,        PUNCT  ,    punct  5
+we       we       PRON   PRP  nsubj  5
+rode     ride     VERB   VBD  ROOT   5
+.        .        PUNCT  .    punct  5
+""")
+    assert [(t.first, t.blocked) for t in rule_triggers(conditional, LEXICONS)] == [(2, "conditional"), (5, "")]
+
+
+def test_shared_blocks_generic_relatives_and_participles_used_as_adjectives() -> None:
+    # Spec, section 2: no event for plans not yet carried out, generic statements or fictive motion.
+    # 'We meant to rest and cross the river, which runs into the lake; on the following day we sailed.'
+    # A bare verb coordinated with a blocked one shares its block (common practice: coordinated verbs share
+    # their auxiliaries and `to`); a present-tense relative clause in a narrative is generic or fictive; a
+    # participle modifying a noun (`the following day`) is an adjective there, not an event.
+    doc = make_doc("""
+We         we         PRON   PRP  nsubj  1
+meant      mean       VERB   VBD  ROOT   1
+to         to         PART   TO   aux    3
+rest       rest       VERB   VB   xcomp  1
+and        and        CCONJ  CC   cc     3
+cross      cross      VERB   VB   conj   3
+the        the        DET    DT   det    7
+river      river      NOUN   NN   dobj   5
+,          ,          PUNCT  ,    punct  7
+which      which      PRON   WDT  nsubj  10
+runs       run        VERB   VBZ  relcl  7
+into       into       ADP    IN   prep   10
+the        the        DET    DT   det    13
+lake       lake       NOUN   NN   pobj   11
+;          ;          PUNCT  :    punct  1
+on         on         ADP    IN   prep   20
+the        the        DET    DT   det    18
+following  follow     VERB   VBG  amod   18
+day        day        NOUN   NN   pobj   15
+we         we         PRON   PRP  nsubj  20
+sailed     sail       VERB   VBD  conj   1
+.          .          PUNCT  .    punct  1
+""")
+    assert [blocking_cue(doc[i]) for i in (5, 10, 17, 20)] == ["not_yet", "present_relative", "attributive", ""]
+    assert [(t.first, t.blocked) for t in rule_triggers(doc, LEXICONS)] == [
+        (5, "not_yet"), (10, "present_relative"), (17, "attributive"), (20, "")]
 
 
 # 'We left Caddow and, turning west, we reached Quillon.' with the participle hung from the first verb,

@@ -418,8 +418,8 @@ def rule_trigger_tags(doc: Doc, triggers: Sequence["RuleTrigger"],
     """The rules' trigger decisions as token features (stacking), for ``rules`` group.
 
     ``rule_trigger`` is the BIO tag of the rule finder's kept triggers; a lexicon
-    trigger the rules dropped gets ``rule_blocked`` (``negated``, ``modal``,
-    ``not_yet``); every lexicon trigger gets ``rule_class`` (its motion class).
+    trigger the rules dropped gets ``rule_blocked`` (its cue, :func:`~trainer.features.rule_cues.blocking_cue`:
+    ``negated``, ``modal``, ``not_yet``, ...); every lexicon trigger gets ``rule_class`` (its motion class).
     ``arguments`` holds, per token, the roles the rule patterns would give it
     as a trigger (for verbs; empty for other tokens): ``rule_arg=<role>`` for
     each source, path or destination found, and ``rule_args`` for their set,

@@ -8,8 +8,11 @@ features (stacking), so a trained model starts from the rules' answers and
 learns where they go wrong.
 
 Triggers are verbs (and nouns) whose lemma is in the motion lexicons, unless
-negated, under a modal or a verb of wanting or planning, an infinitive of
-purpose, or dated to-morrow. Roles come from
+negated, under a modal or a verb of wanting or planning, in a conditional
+clause, an infinitive that its head does not imply happened (`seemed to fly`)
+or one of purpose, in a present-tense relative clause, a participle used as an
+adjective, dated to-morrow, or with a time noun as subject or object.
+Roles come from
 dependency patterns: the subject is the mover (shared by coordinated verbs,
 by the participles and infinitives it controls, and by a participle fronted
 before its clause), a prepositional object takes the role its preposition cues, and a direct
@@ -38,6 +41,15 @@ NOT_YET_HEADS = {
     "determine", "decide", "prepare", "promise", "agree", "offer", "consent", "order", "bid", "direct", "instruct",
     "command", "ask", "beg", "invite", "persuade", "urge", "advise", "tell", "allow", "permit",
 }
+# Heads whose infinitive complement did happen: aspect (`began to descend`), success and chance (`managed to
+# cross`, `happened to pass`), necessity (`were obliged to leave`, `had to be fetched`). Under any other head an
+# infinitive complement is not narrated as happening (`seemed to fly`, `willing to ride`, `was to sail`).
+IMPLICATIVE_HEADS = {
+    "begin", "start", "commence", "continue", "proceed", "resume", "manage", "contrive", "happen", "chance",
+    "come", "get", "take", "have", "oblige", "force", "compel", "make", "venture", "dare",
+}
+# Subordinators of a hypothetical clause (`if the wind held`, `unless the ford is down`, `whether we should go`).
+CONDITIONAL_MARKS = {"if", "unless", "lest", "whether"}
 # Words that put a present-tense verb in the future (`I start to-morrow for Oban`).
 FUTURE_WORDS = {"to-morrow", "tomorrow", "morrow"}
 # A motion verb with a time noun as its subject or object tells of time passing, not of a change of place.
@@ -54,6 +66,7 @@ _MAX_CONTROL_STEPS = 3
 # clause after it) and of finite verbs.
 _PARTICIPLE_TAGS = {"VBG", "VBN"}
 _FINITE_TAGS = {"VBD", "VBZ", "VBP", "MD"}
+_PRESENT_TAGS = {"VBZ", "VBP"}
 _RELATIVE_TAGS = {"WDT", "WP", "WP$"}
 _COMPLEMENT_DEPS = {"xcomp", "ccomp", "acl", "relcl", "amod", "compound", "attr", "acomp", "dobj", "pobj",
                     "nsubj", "nsubjpass"}
@@ -109,8 +122,18 @@ def phrase_span(token: Token) -> tuple[int, int]:
 def blocking_cue(verb: Token) -> str:
     """Why the rules drop a motion verb, or ``""`` when they keep it.
 
-    ``negated``; ``modal`` (`would`, `must`, ...); ``not_yet``, under a verb of
-    wanting, planning or ordering (:data:`NOT_YET_HEADS`); ``purpose``, an
+    ``negated``; ``modal`` (`would`, `must`, ...); ``conditional``, in a clause
+    of `if`, `unless`, `lest` or `whether` (:data:`CONDITIONAL_MARKS`);
+    ``not_yet``, under a verb of wanting, planning or ordering
+    (:data:`NOT_YET_HEADS`); ``infinitive``, an infinitive complement of any
+    other head that does not imply it happened (`seemed to fly`, `was to
+    sail`, `willing to ride`; :data:`IMPLICATIVE_HEADS` do, and pass on their
+    own cue: `could not manage to cross` is ``negated``); a bare verb
+    coordinated with a blocked one takes its cue (`meant to rest and cross`);
+    ``present_relative``, in a present-tense relative clause, generic or
+    fictive in a narrative (`merchants who travel for gain`, `a stream which
+    runs into the river`); ``attributive``, a present participle modifying a
+    noun (`the following day`, `running water`); ``purpose``, an
     infinitive of purpose (`rose to go`, `the wish to visit`); ``future``, a
     verb dated to-morrow; ``time_subject`` and ``time_object``, a verb whose
     subject or direct object is a time noun by its first WordNet sense, so
@@ -118,13 +141,30 @@ def blocking_cue(verb: Token) -> str:
     hour arrived`, `we passed an uncomfortable night`).
     """
     children = list(verb.children)
+    to_infinitive = any(c.dep_ == "aux" and c.lower_ == "to" for c in children)
     if any(c.dep_ == "neg" for c in children):
         return "negated"
     if any(c.dep_ == "aux" and c.lower_ in HYPOTHETICAL_AUX for c in children):
         return "modal"
+    if any(c.dep_ == "mark" and c.lower_ in CONDITIONAL_MARKS for c in children):
+        return "conditional"
     if verb.dep_ == "xcomp" and verb.head.lemma_.lower() in NOT_YET_HEADS:
         return "not_yet"
-    if verb.dep_ in {"advcl", "acl"} and any(c.dep_ == "aux" and c.lower_ == "to" for c in children):
+    if verb.dep_ == "xcomp" and to_infinitive:
+        if verb.head.lemma_.lower() not in IMPLICATIVE_HEADS:
+            return "infinitive"
+        if verb.head.pos_ in {"VERB", "AUX"} and (inherited := blocking_cue(verb.head)):
+            return inherited
+    # A bare verb coordinated with another shares its auxiliary, `to` or subordinator (`we meant to stay and
+    # accompany them`); its object is its own, so a time object is not shared.
+    if verb.dep_ == "conj" and verb.tag_ == "VB" and verb.head.pos_ in {"VERB", "AUX"}:
+        if (inherited := blocking_cue(verb.head)) and inherited != "time_object":
+            return inherited
+    if verb.dep_ == "relcl" and verb.tag_ in _PRESENT_TAGS:
+        return "present_relative"
+    if verb.dep_ == "amod" and verb.tag_ == "VBG":
+        return "attributive"
+    if verb.dep_ in {"advcl", "acl"} and to_infinitive:
         return "purpose"
     # 'to-morrow' is parsed as 'to' + '-' + 'morrow', a prepositional phrase of the verb
     if any(word.lower_ in FUTURE_WORDS for c in children for word in (c, *c.children)):
