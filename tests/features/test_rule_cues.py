@@ -293,6 +293,28 @@ rode     ride     VERB   VBD  ROOT   5
 .        .        PUNCT  .    punct  5
 """)
     assert [(t.first, t.blocked) for t in rule_triggers(conditional, LEXICONS)] == [(2, "conditional"), (5, "")]
+    # 'The caravan was seen to enter the pass.': perception in the passive says it happened.
+    seen = make_doc("""
+The      the      DET    DT   det        1
+caravan  caravan  NOUN   NN   nsubjpass  3
+was      be       AUX    VBD  auxpass    3
+seen     see      VERB   VBN  ROOT       3
+to       to       PART   TO   aux        5
+enter    enter    VERB   VB   xcomp      3
+the      the      DET    DT   det        7
+pass     pass     NOUN   NN   dobj       5
+.        .        PUNCT  .    punct      3
+""")
+    assert blocking_cue(seen[5]) == ""
+    # A verb labelled as a conjunct or complement of itself (a malformed tree read from a CoNLL-U file) is
+    # judged on its own instead of inheriting from itself without end.
+    self_headed = make_doc("""
+We     we     PRON   PRP  nsubj  1
+begin  begin  VERB   VB   conj   1
+to     to     PART   TO   aux    3
+begin  begin  VERB   VB   xcomp  3
+""")
+    assert [blocking_cue(self_headed[1]), blocking_cue(self_headed[3])] == ["", ""]
 
 
 def test_shared_blocks_generic_relatives_and_participles_used_as_adjectives() -> None:

@@ -41,12 +41,14 @@ NOT_YET_HEADS = {
     "determine", "decide", "prepare", "promise", "agree", "offer", "consent", "order", "bid", "direct", "instruct",
     "command", "ask", "beg", "invite", "persuade", "urge", "advise", "tell", "allow", "permit",
 }
-# Heads whose infinitive complement did happen: aspect (`began to descend`), success and chance (`managed to
-# cross`, `happened to pass`), necessity (`were obliged to leave`, `had to be fetched`). Under any other head an
-# infinitive complement is not narrated as happening (`seemed to fly`, `willing to ride`, `was to sail`).
+# Heads whose infinitive complement did happen: aspect (`began to descend`), success, haste and chance (`managed
+# to cross`, `hastened to leave`, `happened to pass`), necessity (`were obliged to leave`, `had to be fetched`),
+# perception in the passive (`was seen to enter`). Under any other head an infinitive complement is not narrated
+# as happening (`seemed to fly`, `willing to ride`, `was to sail`).
 IMPLICATIVE_HEADS = {
-    "begin", "start", "commence", "continue", "proceed", "resume", "manage", "contrive", "happen", "chance",
-    "come", "get", "take", "have", "oblige", "force", "compel", "make", "venture", "dare",
+    "begin", "start", "commence", "continue", "proceed", "resume", "manage", "contrive", "succeed", "remember",
+    "hasten", "hurry", "help", "happen", "chance", "come", "get", "take", "have", "oblige", "force", "compel",
+    "make", "venture", "dare", "see", "hear", "observe", "notice", "perceive",
 }
 # Subordinators of a hypothetical clause (`if the wind held`, `unless the ford is down`, `whether we should go`).
 CONDITIONAL_MARKS = {"if", "unless", "lest", "whether"}
@@ -153,11 +155,11 @@ def blocking_cue(verb: Token) -> str:
     if verb.dep_ == "xcomp" and to_infinitive:
         if verb.head.lemma_.lower() not in IMPLICATIVE_HEADS:
             return "infinitive"
-        if verb.head.pos_ in {"VERB", "AUX"} and (inherited := blocking_cue(verb.head)):
+        if verb.head.pos_ in {"VERB", "AUX"} and verb.head.i != verb.i and (inherited := blocking_cue(verb.head)):
             return inherited
     # A bare verb coordinated with another shares its auxiliary, `to` or subordinator (`we meant to stay and
     # accompany them`); its object is its own, so a time object is not shared.
-    if verb.dep_ == "conj" and verb.tag_ == "VB" and verb.head.pos_ in {"VERB", "AUX"}:
+    if verb.dep_ == "conj" and verb.tag_ == "VB" and verb.head.pos_ in {"VERB", "AUX"} and verb.head.i != verb.i:
         if (inherited := blocking_cue(verb.head)) and inherited != "time_object":
             return inherited
     if verb.dep_ == "relcl" and verb.tag_ in _PRESENT_TAGS:
