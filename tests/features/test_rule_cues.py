@@ -306,8 +306,8 @@ pass     pass     NOUN   NN   dobj       5
 .        .        PUNCT  .    punct      3
 """)
     assert blocking_cue(seen[5]) == ""
-    # A verb labelled as a conjunct or complement of itself (a malformed tree read from a CoNLL-U file) is
-    # judged on its own instead of inheriting from itself without end.
+    # A verb labelled as a conjunct or complement of itself, or two verbs each the other's head (malformed trees
+    # read from a CoNLL-U file), are judged without inheriting round the cycle for ever.
     self_headed = make_doc("""
 We     we     PRON   PRP  nsubj  1
 begin  begin  VERB   VB   conj   1
@@ -315,6 +315,12 @@ to     to     PART   TO   aux    3
 begin  begin  VERB   VB   xcomp  3
 """)
     assert [blocking_cue(self_headed[1]), blocking_cue(self_headed[3])] == ["", ""]
+    cycle = make_doc("""
+We     we     PRON   PRP  nsubj  1
+go     go     VERB   VB   conj   2
+run    run    VERB   VB   conj   1
+""")
+    assert [blocking_cue(cycle[1]), blocking_cue(cycle[2])] == ["", ""]
 
 
 def test_shared_blocks_generic_relatives_and_participles_used_as_adjectives() -> None:

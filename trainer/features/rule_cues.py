@@ -64,6 +64,7 @@ SUBJECT_DEPS = {"nsubj", "nsubjpass"}
 # A verb in one of these relations has its subject from the verb it hangs from (subject control).
 _CONTROLLED_DEPS = {"advcl", "xcomp", "pcomp"}
 _MAX_CONTROL_STEPS = 3
+_MAX_INHERIT_STEPS = 4  # heads up a chain of coordinated verbs and implicative heads that a blocking cue comes from
 # Penn tags of participles (one modifying a noun takes that noun as its mover, a fronted one the subject of the
 # clause after it) and of finite verbs.
 _PARTICIPLE_TAGS = {"VBG", "VBN"}
@@ -121,7 +122,7 @@ def phrase_span(token: Token) -> tuple[int, int]:
     return first, end
 
 
-def blocking_cue(verb: Token) -> str:
+def blocking_cue(verb: Token, steps: int = 0) -> str:
     """Why the rules drop a motion verb, or ``""`` when they keep it.
 
     ``negated``; ``modal`` (`would`, `must`, ...); ``conditional``, in a clause
@@ -140,10 +141,14 @@ def blocking_cue(verb: Token) -> str:
     verb dated to-morrow; ``time_subject`` and ``time_object``, a verb whose
     subject or direct object is a time noun by its first WordNet sense, so
     time passes rather than anyone changing place (`night came on`, `the
-    hour arrived`, `we passed an uncomfortable night`).
+    hour arrived`, `we passed an uncomfortable night`). ``steps`` counts the
+    heads already climbed to inherit a cue; callers leave it at 0.
     """
     children = list(verb.children)
     to_infinitive = any(c.dep_ == "aux" and c.lower_ == "to" for c in children)
+    # A cue is inherited from the head a few steps up at most, so a malformed tree (a cycle of heads read from a
+    # CoNLL-U file) cannot send this round for ever.
+    inherits = steps < _MAX_INHERIT_STEPS and verb.head.i != verb.i and verb.head.pos_ in {"VERB", "AUX"}
     if any(c.dep_ == "neg" for c in children):
         return "negated"
     if any(c.dep_ == "aux" and c.lower_ in HYPOTHETICAL_AUX for c in children):
@@ -155,12 +160,12 @@ def blocking_cue(verb: Token) -> str:
     if verb.dep_ == "xcomp" and to_infinitive:
         if verb.head.lemma_.lower() not in IMPLICATIVE_HEADS:
             return "infinitive"
-        if verb.head.pos_ in {"VERB", "AUX"} and verb.head.i != verb.i and (inherited := blocking_cue(verb.head)):
+        if inherits and (inherited := blocking_cue(verb.head, steps + 1)):
             return inherited
     # A bare verb coordinated with another shares its auxiliary, `to` or subordinator (`we meant to stay and
     # accompany them`); its object is its own, so a time object is not shared.
-    if verb.dep_ == "conj" and verb.tag_ == "VB" and verb.head.pos_ in {"VERB", "AUX"} and verb.head.i != verb.i:
-        if (inherited := blocking_cue(verb.head)) and inherited != "time_object":
+    if verb.dep_ == "conj" and verb.tag_ == "VB" and inherits:
+        if (inherited := blocking_cue(verb.head, steps + 1)) and inherited != "time_object":
             return inherited
     if verb.dep_ == "relcl" and verb.tag_ in _PRESENT_TAGS:
         return "present_relative"
