@@ -167,12 +167,17 @@ def test_multiword_forms_that_do_not_spell_the_surface_token_fail_the_text_check
          "{path}: sentence 's1': word 1 has UPOS 'PRONOUN', not a Universal Dependencies tag"),
         ("# sent_id = s1\n1\tWe\twe\tPRON\tPRP\t_\t5\tnsubj\t_\t_\n\n", CorpusError,
          "{path}: sentence 's1': word 1 has HEAD 5, which is not a word of the sentence"),
+        ("# sent_id = s1\n1\tWe\twe\tPRON\tPRP\t_\t1\tnsubj\t_\t_\n\n", CorpusError,
+         "{path}: sentence 's1': word 1 has itself as HEAD"),
+        ("# sent_id = s1\n1\tWe\twe\tPRON\tPRP\t_\t2\tnsubj\t_\t_\n2\tgo\tgo\tVERB\tVB\t_\t3\tconj\t_\t_\n"
+         "3\trun\trun\tVERB\tVB\t_\t2\tconj\t_\t_\n\n", CorpusError,
+         "{path}: sentence 's1': the HEAD column makes a cycle: words 2 -> 3 -> 2"),
         ("# sent_id = s1\n1\tWe\twe\n\n", UnreadableInputError,
          "{path}: sentence 's1': the line of word 1 has 3 columns, not 10"),
         ("# sent_id = s1\n1\tWe\twe\tPRON\tPRP\t_\tx\tnsubj\t_\t_\n\n", UnreadableInputError,
          "{path}: not valid CoNLL-U (Failed parsing field 'head': 'x' is not a valid value for parse_int_value.)"),
     ],
-    ids=["no-sent-id", "repeated-sent-id", "bad-upos", "bad-head", "few-columns", "bad-head-value"],
+    ids=["no-sent-id", "repeated-sent-id", "bad-upos", "bad-head", "self-head", "head-cycle", "few-columns", "bad-head-value"],
 )
 def test_malformed_files(tmp_path: Path, blank: Language, text: str, error: type, cause: str) -> None:
     path = write(tmp_path, text)

@@ -10,8 +10,8 @@ Each sentence becomes one :class:`~spacy.tokens.Doc`, keyed by its
   last word of a sentence never has one (as in UD's ``# text``);
 - lemmas (LEMMA; ``_`` is read as unknown unless the word is ``_``), ``pos``
   (UPOS), ``tag`` (XPOS), ``morph`` (FEATS), heads (HEAD, 0 for the root,
-  which becomes its own head) and ``dep`` (DEPREL, as written: UD labels stay
-  UD labels).
+  which becomes its own head; a word heading itself or a cycle of heads is
+  refused) and ``dep`` (DEPREL, as written: UD labels stay UD labels).
 
 Skipped on purpose:
 
@@ -132,8 +132,16 @@ def sentence_to_doc(sentence: conllu.TokenList, vocab: Vocab, *, path: Path | st
             if head != 0 and head not in position:
                 raise CorpusError(f"{where}: word {token['id']} has HEAD {head}, which is not a word of the sentence",
                                   "fix the HEAD column (0 for the root)")
+            if head == token["id"]:
+                raise CorpusError(f"{where}: word {token['id']} has itself as HEAD",
+                                  "fix the HEAD column (0 for the root)")
             heads.append(i if head == 0 else position[head])
             deps.append(_given(token["deprel"]) or None)  # None: label missing
+        cycle = _cycle(heads)
+        if cycle:
+            raise CorpusError(f"{where}: the HEAD column makes a cycle: words "
+                              f"{' -> '.join(str(words[i]['id']) for i in cycle)}",
+                              "fix the HEAD column: every word's chain of heads must end at the root (HEAD 0)")
     return Doc(
         vocab,
         words=[t["form"] for t in words],
@@ -145,6 +153,18 @@ def sentence_to_doc(sentence: conllu.TokenList, vocab: Vocab, *, path: Path | st
         heads=heads,
         deps=deps,
     )
+
+
+def _cycle(heads: list[int]) -> list[int]:
+    """Word positions round the first cycle of heads that never reaches a root (a word that heads itself), else []."""
+    for start in range(len(heads)):
+        path, i = [start], start
+        while heads[i] != i:
+            i = heads[i]
+            if i in path:
+                return path[path.index(i):] + [i]
+            path.append(i)
+    return []
 
 
 def _given(value: str | None) -> str:
