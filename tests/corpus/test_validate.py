@@ -78,6 +78,19 @@ def test_warnings_keep_the_record(tmp_path):
     assert any(m.startswith("events[3].trigger: span 'rossed' cuts through a word") for m in messages)
 
 
+def test_a_span_taking_in_italics_underscores_is_a_warning(tmp_path):
+    # Project Gutenberg's plain-text e-texts mark italics with underscores (_Tern_); the words are inside them.
+    text = "We sailed in the _Tern_ to Quillon."
+    events = [{"trigger": [3, 9], "roles": [{"role": "mover", "span": [0, 2]}, {"role": "path", "span": [17, 23]},
+                                            {"role": "destination", "span": [27, 34]}]}]
+    path = tmp_path / "i.jsonl"
+    path.write_text(json.dumps({"id": "i", "doc": "d", "text": text, "events": events}) + "\n", encoding="utf-8")
+    result = check_files([path])
+    assert not result.errors and len(result.records) == 1
+    assert [p.field + ": " + p.message for p in result.warnings] == [
+        "events[0].roles[1].span: span '_Tern_' takes in an underscore, the italics marker of plain-text e-texts"]
+
+
 def test_a_file_without_records_is_a_warning_that_names_it(tmp_path):
     empty, blank = tmp_path / "empty.jsonl", tmp_path / "blank.jsonl"
     empty.write_text("", encoding="utf-8")

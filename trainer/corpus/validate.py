@@ -116,6 +116,9 @@ class _LineChecker:
         if covered[0] in _EDGE_CHARS or covered[-1] in _EDGE_CHARS:
             self.add(where, f"span {covered!r} begins or ends with whitespace or punctuation",
                      "trim the span to the words themselves", WARNING)
+        elif covered[0] == "_" or covered[-1] == "_":
+            self.add(where, f"span {covered!r} takes in an underscore, the italics marker of plain-text e-texts",
+                     "trim the span to the words inside (the parser reads each _ as a word of its own)", WARNING)
         if (start > 0 and text[start - 1].isalnum() and covered[0].isalnum()) or (
             end < len(text) and text[end].isalnum() and covered[-1].isalnum()
         ):
