@@ -156,14 +156,26 @@ def sentence_to_doc(sentence: conllu.TokenList, vocab: Vocab, *, path: Path | st
 
 
 def _cycle(heads: list[int]) -> list[int]:
-    """Word positions round the first cycle of heads that never reaches a root (a word that heads itself), else []."""
+    """Word positions round the first cycle of heads that never reaches a root (a word that heads itself), else [].
+
+    Each word is walked from once (linear in the sentence's length, however deep its tree).
+    """
+    reaches_root = [False] * len(heads)
     for start in range(len(heads)):
-        path, i = [start], start
-        while heads[i] != i:
-            i = heads[i]
-            if i in path:
-                return path[path.index(i):] + [i]
+        path: list[int] = []
+        on_path: dict[int, int] = {}
+        i = start
+        while not reaches_root[i] and i not in on_path:
+            on_path[i] = len(path)
             path.append(i)
+            if heads[i] == i:
+                break
+            i = heads[i]
+        else:
+            if i in on_path:
+                return path[on_path[i]:] + [i]
+        for j in path:
+            reaches_root[j] = True
     return []
 
 
