@@ -162,18 +162,16 @@ def _cycle(heads: list[int]) -> list[int]:
     """
     reaches_root = [False] * len(heads)
     for start in range(len(heads)):
-        path: list[int] = []
-        on_path: dict[int, int] = {}
+        path: dict[int, int] = {}  # word -> its place on the walk from start (insertion order is the walk)
         i = start
-        while not reaches_root[i] and i not in on_path:
-            on_path[i] = len(path)
-            path.append(i)
+        while not reaches_root[i] and i not in path:
+            path[i] = len(path)
             if heads[i] == i:
                 break
             i = heads[i]
         else:
-            if i in on_path:
-                return path[on_path[i]:] + [i]
+            if i in path:
+                return list(path)[path[i]:] + [i]
         for j in path:
             reaches_root[j] = True
     return []
