@@ -112,7 +112,7 @@ CASES = {
         ("fit {d}/c.jsonl -o {d}/c.jsonl", "also an input"),
         ("extract {d}/m.itin {d}/c.jsonl -o {d}/c.jsonl", "also an input"),
         ("extract {d}/m.itin {d}/c.jsonl -o {d}/m.itin", "also an input"),
-        ("extract {d}/m.itin {d}/c.jsonl -o {d}/o.jsonl --table {d}/c.jsonl", "also an input"),
+        ("extract {d}/m.itin {d}/c.jsonl -o {d}/o.jsonl --table {d}/c.jsonl", "a table must end in .csv or .tsv"),
         ("crossval {d} -o {d}", "also an input"),
         ("curve {d} -o {d}", "also an input"),
         ("score {d}/c.jsonl {d}/c.jsonl -o {d}/c.jsonl", "also an input"),
@@ -135,6 +135,18 @@ CASES = {
         ("score {d}/c.jsonl {d}/c.jsonl --roles mover,mover", "roles must not repeat"),
         ("agree {d}/c.jsonl {d}/c.jsonl --roles mover,trigger", "['trigger'] are reserved for score names"),
         ("itinerary {d}/c.jsonl -o {d}/o.tsv --min-confidence 1.5", "must be a number from 0 to 1, got 1.5"),
+        ("fit {d}/c.jsonl -o {d}/o.itin --calibration isotonic", "so it needs at least two annotated docs; this corpus has 1"),
+        ("fit {d}/c.jsonl -o {d}/o.itin --target-precision 0.9", "--target-precision is read only when"),
+        ("crossval {d}/c.jsonl -o {d}/run --folds 3 --leave-one-doc-out", "--folds and --repeats set K shuffled folds"),
+        ("crossval {d}/c.jsonl -o {d}/run --shares 0,2", "shares must lie in (0, 1], got [0.0, 2.0]"),
+        ("curve {d}/c.jsonl -o {d}/run --shares 0.5,1.5", "shares must lie in (0, 1], got [0.5, 1.5]"),
+        ("gate {d}/c.jsonl --baseline {d}/b.json --tolerance 5", "--tolerance 5: an allowed F1 drop must lie in [0, 1]"),
+        ("gate {d}/c.jsonl --baseline {d}/b.json --tolerance -1", "--tolerance -1: an allowed F1 drop must lie in [0, 1]"),
+    ],
+    "table or gazetteer unusable (checked before anything is written)": [
+        ("extract {d}/m.itin {d}/c.jsonl -o {d}/o.jsonl --table {d}/t.xlsx", "a table must end in .csv or .tsv"),
+        ("itinerary {d}/c.jsonl -o {d}/o.xlsx", "a table must end in .csv or .tsv"),
+        ("itinerary {d}/c.jsonl -o {d}/o.tsv --gazetteer {d}/no.tsv --geojson {d}/g.json", "no such file"),
     ],
 }
 
@@ -150,6 +162,17 @@ def test_every_command_refuses_bad_paths_with_exit_2_and_touches_nothing(place, 
     assert not isinstance(result.exception, Exception) or isinstance(result.exception, SystemExit)
     assert "Traceback" not in result.output
     assert snapshot(place) == before  # nothing written, nothing changed
+
+
+def test_crossval_refuses_an_input_inside_its_report_folder(place):
+    (place / "run").mkdir()
+    (place / "run" / "c.jsonl").write_text((place / "c.jsonl").read_text(encoding="utf-8"), encoding="utf-8")
+    before = snapshot(place)
+    result = runner.invoke(app, ["crossval", str(place / "run" / "c.jsonl"), "-o", str(place / "run"),
+                                 "-c", str(REPO / "configs" / "rules.toml")])
+    assert result.exit_code == 2, result.output
+    assert "this input lies inside the report folder" in result.output and "fix: " in result.output
+    assert snapshot(place) == before
 
 
 def test_every_command_is_covered():
@@ -333,3 +356,13 @@ def test_a_second_run_to_a_report_folder_is_refused_before_any_work(place):
     finally:
         sleeper.kill()
         sleeper.wait()
+
+
+def test_contrast_refuses_runs_that_held_out_different_folds(tmp_path):
+    for name, plan in (("five-fold", "aaaa"), ("one-doc-out", "bbbb")):
+        (tmp_path / name).mkdir()
+        (tmp_path / name / "report.json").write_text(json.dumps(
+            {"corpus": {"fingerprint": "same"}, "settings": {"mode": "exact"}, "fold_plan_fingerprint": plan}))
+    result = runner.invoke(app, ["contrast", str(tmp_path / "five-fold"), str(tmp_path / "one-doc-out")])
+    assert result.exit_code == 1, result.output
+    assert "held out different folds (fold plans aaaa and bbbb)" in result.output and "fix: rerun one of them" in result.output

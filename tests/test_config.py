@@ -122,3 +122,13 @@ def test_the_confidence_section_is_checked_like_every_other() -> None:
         config_from_dict({"confidence": {"calibration": "beta"}})
     with pytest.raises(ConfigError, match="target_precision"):
         config_from_dict({"confidence": {"target_precision": 1.5}})
+
+
+def test_a_config_that_is_a_folder_or_not_utf8_is_a_message_not_a_traceback(tmp_path) -> None:
+    (tmp_path / "adir.toml").mkdir()
+    with pytest.raises(ConfigError, match="adir.toml: is a folder, not a config file"):
+        load_config(tmp_path / "adir.toml")
+    (tmp_path / "latin1.toml").write_bytes('name = "F\u00fcssen"\n'.encode("latin-1"))
+    with pytest.raises(ItinerantError, match=r"latin1.toml: not UTF-8 text: line 1, byte offset 9 \(0xfc\)") as raised:
+        load_config(tmp_path / "latin1.toml")
+    assert raised.value.exit_code == 2 and raised.value.fix == "save the config as UTF-8 (TOML files are UTF-8)"

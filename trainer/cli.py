@@ -162,7 +162,8 @@ def convert(
 ) -> None:
     """Convert between the canonical JSONL and other formats; everything not carried over is listed.
 
-    Exit codes: 0 written (listed losses included), 1 losses with --fail-on-loss, 2 unusable input or output.
+    Exit codes: 0 written (listed losses included); 1 bad records in the input (each located), or losses with
+    --fail-on-loss; 2 unusable input (missing, not UTF-8, not parseable as its format) or output.
     """
     from trainer.corpus.convert import convert_file
 
@@ -206,12 +207,14 @@ def fit(
     if outcome.held_out:
         thresholds = ", ".join(f"{label} {value:.3f}" for label, value in outcome.thresholds.items()) or "none"
         say(f"confidence: {', '.join(outcome.calibrated) or 'no label'} calibrated; thresholds: {thresholds}; "
-            f"learned from held-out predictions on inner folds {outcome.held_out}")
+            f"learned from held-out predictions on inner folds ("
+            + ", ".join(f"{label} {count}" for label, count in outcome.held_out.items()) + ")")
     if outcome.unreached:
         say(f"warning: no threshold reached the target precision for {', '.join(outcome.unreached)} on held-out "
             "predictions; their threshold gives the best precision found")
     meta = outcome.metadata
-    say(f"model written to {output} ({meta['payload_bytes']} bytes, {meta['training_seconds']} s); digest in {output}.sha256")
+    say(f"model written to {output} ({output.stat().st_size} bytes, {meta['training_seconds']} s); "
+        f"digest in {output}.sha256")
     if outcome.skipped:
         raise typer.Exit(1)
 
@@ -484,8 +487,8 @@ def gate(
     config: Annotated[Optional[Path], typer.Option("--config", "-c", help="Take the gate settings (its gate table) from this config.")] = None,
     system: Annotated[Optional[str], typer.Option(help="Config name in the report to gate (default: the baseline's); with --accept, the config to record.")] = None,
     rule: Annotated[Optional[str], typer.Option(help="drop (absolute F1 drop) or interval (below the baseline's CI).")] = None,
-    tolerance: Annotated[Optional[float], typer.Option(help="Allowed F1 drop for every score.")] = None,
-    role_tolerance: Annotated[list[str], typer.Option(help="Per-score tolerance, e.g. mover=0.03; repeatable.")] = [],
+    tolerance: Annotated[Optional[float], typer.Option(help="Allowed F1 drop (0 to 1) for every score, over the config's per-score tolerances.")] = None,
+    role_tolerance: Annotated[list[str], typer.Option(help="Per-score tolerance, e.g. mover=0.03 (a score of the report); repeatable.")] = [],
     junit: Annotated[Optional[Path], typer.Option(help="Also write JUnit XML, one test case per score.")] = None,
     allow_mismatch: Annotated[bool, typer.Option(help="Compare even if corpus, roles, mode or folds differ.")] = False,
     accept: Annotated[bool, typer.Option("--accept", help="Record this report as the new baseline instead of gating.")] = False,

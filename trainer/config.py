@@ -15,7 +15,8 @@ from typing import Any, Collection, Sequence
 
 from trainer.corpus.auxiliary import resolve_source
 from trainer.corpus.records import DEFAULT_ROLES
-from trainer.errors import ConfigError, PipelineNotFoundError
+from trainer.corpus.jsonl import not_utf8
+from trainer.errors import ConfigError, PipelineNotFoundError, opening
 from trainer.features.registry import DEFAULT_FEATURE_GROUPS, FEATURE_GROUPS
 from trainer.models.kinds import MODEL_KINDS
 
@@ -300,9 +301,12 @@ def load_config(path: Path | str) -> ExperimentConfig:
     """Read a TOML config file; keys it leaves out take the dataclass defaults, ``name`` the file's stem."""
     path = Path(path)
     try:
-        data = tomllib.loads(path.read_text(encoding="utf-8"))
-    except FileNotFoundError:
-        raise ConfigError(f"{path}: no such config file", "see configs/ for ready ones") from None
+        with opening(path, expected="a .toml file (see configs/)", what="config file",
+                     missing_fix="see configs/ for ready ones", error=ConfigError):
+            text = path.read_text(encoding="utf-8")
+        data = tomllib.loads(text)
+    except UnicodeDecodeError:
+        raise not_utf8(path, "save the config as UTF-8 (TOML files are UTF-8)") from None
     except tomllib.TOMLDecodeError as exc:
         raise ConfigError(f"{path}: not valid TOML ({exc})", "fix the syntax at the position given") from None
     data.setdefault("name", path.stem)

@@ -84,8 +84,8 @@ class GazetteerError(ItinerantError):
     exit_code = 1
 
 
-class TableFormatError(ItinerantError):
-    """An itinerary table was given a file name that names no table format."""
+class TableFormatError(UnknownFormatError):
+    """A table (an event table, an itinerary, a gazetteer) was given a file name that names no table format."""
 
     exit_code = 2
 

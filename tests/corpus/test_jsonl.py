@@ -124,3 +124,14 @@ def test_not_utf8_locates_the_first_bad_byte_across_read_blocks(tmp_path, tail, 
     error = not_utf8(path)
     line = body[:reference.value.start].count(b"\n") + 1
     assert error.cause == f"{path}: not UTF-8 text: line {line}, byte offset {reference.value.start} (0x{bad:02x})"
+
+
+def test_not_utf8_tells_a_binary_file_from_text_in_another_encoding(tmp_path):
+    latin = tmp_path / "latin.txt"
+    latin.write_bytes("We went to F\u00fcssen.\n".encode("latin-1"))
+    assert not_utf8(latin).fix == "re-save the file as UTF-8"
+    binary = tmp_path / "model.itin"
+    binary.write_bytes(b"ITINERANT-MODEL 1\n{}\n\x80\x04\x95\x00\x00")  # a pickle's opening bytes
+    error = not_utf8(binary)
+    assert error.cause == f"{binary}: not UTF-8 text: line 3, byte offset 21 (0x80)"
+    assert error.fix.startswith("this is a binary file")

@@ -78,6 +78,22 @@ def test_warnings_keep_the_record(tmp_path):
     assert any(m.startswith("events[3].trigger: span 'rossed' cuts through a word") for m in messages)
 
 
+def test_spans_of_one_event_overlapping_each_other_or_the_trigger_are_warnings(tmp_path):
+    # docs/annotation-guide.md: spans of one event should overlap neither each other nor the trigger; one span
+    # may serve two events.
+    text = "We went from Caddow Bridge to the lake and came back."
+    events = [{"trigger": [3, 7], "roles": [{"role": "source", "span": [13, 26]}, {"role": "path", "span": [20, 26]},
+                                            {"role": "mover", "span": [0, 7]}, {"role": "destination", "span": [30, 38]}]},
+              {"trigger": [43, 47], "roles": [{"role": "mover", "span": [0, 2]}, {"role": "source", "span": [30, 38]}]}]
+    path = tmp_path / "o.jsonl"
+    path.write_text(json.dumps({"id": "o", "doc": "d", "text": text, "events": events}) + "\n", encoding="utf-8")
+    result = check_files([path])
+    assert not result.errors and len(result.records) == 1
+    assert [p.field + ": " + p.message for p in result.warnings] == [
+        "events[0].roles[1].span: the path 'Bridge' overlaps roles[0], the source 'Caddow Bridge'",
+        "events[0].roles[2].span: the mover 'We went' overlaps the trigger 'went'"]
+
+
 def test_a_span_taking_in_italics_underscores_is_a_warning(tmp_path):
     # Project Gutenberg's plain-text e-texts mark italics with underscores (_Tern_); the words are inside them.
     text = "We sailed in the _Tern_ to Quillon."
@@ -107,7 +123,10 @@ def test_reading_for_training_refuses_errors_unless_asked_to_skip(bad_file):
     with pytest.raises(CorpusError) as raised:
         read_corpus([bad_file])
     assert "10 error(s) in 10 record(s)" in str(raised.value)
-    assert "--skip-bad" in str(raised.value)
+    assert raised.value.fix == "fix them (run `itinerant check` for the full list) or pass --skip-bad to leave those records out"
+    with pytest.raises(CorpusError) as raised:  # a command without --skip-bad does not offer it
+        read_corpus([bad_file], skippable=False)
+    assert raised.value.fix == "fix them (run `itinerant check` for the full list)"
     corpus = read_corpus([bad_file], skip_bad=True)
     assert [r.id for r in corpus.records] == ["ok-1"]
     summary = skipped_summary(corpus)

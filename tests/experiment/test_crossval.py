@@ -212,3 +212,17 @@ def test_serial_progress_says_when_a_fold_augmented_its_features_because_the_con
     _serial([(lambda: departed, (), {}), (lambda: agreed, (), {})], lines.append)
     assert lines == ["[1/2] default repeat 0 fold 1: trained on 80 records in 2.0 s; features augmented by corpus "
                      "where the conventions differ", "[2/2] default repeat 0 fold 2: trained on 90 records in 3.0 s"]
+
+
+def test_a_report_folder_written_again_keeps_only_the_new_run_s_prediction_files(small, nlp, serial, tmp_path):
+    from dataclasses import replace
+
+    from trainer.reports.folder import write_report_folder
+
+    records, configs, plans = small
+    write_report_folder(tmp_path, serial, summarise(serial), corpus_files=[], seconds=1.0)
+    assert sorted(p.name for p in (tmp_path / "predictions").iterdir()) == [
+        "crf.gold-triggers.jsonl", "crf.jsonl", "rules.gold-triggers.jsonl", "rules.jsonl"]
+    rules_only = replace(serial, systems=[s for s in serial.systems if s.name == "rules"])
+    write_report_folder(tmp_path, rules_only, summarise(rules_only), corpus_files=[], seconds=1.0)
+    assert sorted(p.name for p in (tmp_path / "predictions").iterdir()) == ["rules.gold-triggers.jsonl", "rules.jsonl"]

@@ -106,3 +106,15 @@ def test_configs_with_one_name_or_different_roles_are_refused(tmp_path: Path) ->
         resolve_settings([write(tmp_path, "a", ""), write(tmp_path / "x", "a", "")])
     with pytest.raises(ConfigError, match="role inventories"):
         resolve_settings([write(tmp_path, "c", ""), write(tmp_path, "d", "[corpus]\nroles = [\"mover\"]\n")])
+
+
+def test_options_that_the_other_options_would_make_silently_idle_are_refused() -> None:
+    with pytest.raises(ConfigError, match="--folds and --repeats set K shuffled folds"):
+        resolve_settings([], Overrides(folds=2, leave_one_doc_out=True))
+    with pytest.raises(ConfigError, match="--folds and --repeats set K shuffled folds"):
+        resolve_settings([], Overrides(repeats=2, test_docs=("d1",)))
+    with pytest.raises(ConfigError, match="--target-precision is read only when") as raised:
+        resolve_settings([], Overrides(target_precision=0.9))
+    assert "add --thresholds precision" in raised.value.fix
+    assert resolve_settings([], Overrides(target_precision=0.9, thresholds="precision")).configs[0].confidence.target_precision == 0.9
+    assert resolve_settings([], Overrides(leave_one_book_out=True)).folds.leave_one_book_out

@@ -22,3 +22,14 @@ def test_an_input_without_unannotated_sentences_is_refused_and_nothing_written(r
     assert raised.value.cause.startswith(f"{source.parent}/{cause}")
     assert not out.exists()
 
+
+
+def test_a_plain_text_file_that_is_not_utf8_is_refused_with_its_first_bad_byte(rules_model_file, tmp_path):
+    from trainer.errors import UnreadableInputError
+
+    source, out = tmp_path / "book.txt", tmp_path / "batch.jsonl"
+    source.write_bytes("We rode on.\nWe went to F\u00fcssen.\n".encode("latin-1"))
+    with pytest.raises(UnreadableInputError) as raised:
+        suggest_to_file(rules_model_file, source, out, count=3)
+    assert raised.value.cause == f"{source}: not UTF-8 text: line 2, byte offset 24 (0xfc)"  # 12 bytes on line 1, then "We went to F"
+    assert not out.exists()

@@ -233,3 +233,30 @@ def test_accepting_a_report_with_a_non_finite_score_is_refused(tmp_path):
     result = _gate(path, "--baseline", tmp_path / "b.json", "--accept")
     assert result.exit_code == 2 and "scores.micro.f1' is nan" in result.output
     assert not (tmp_path / "b.json").exists()
+
+
+def test_tolerances_are_checked_and_the_command_line_tolerance_sets_every_score(files):
+    tmp, _, baseline = files
+    worse = tmp / "worse.json"
+    worse.write_text(json.dumps(make_report(source=0.76)))  # -0.04: within the config's source tolerance of 0.05
+    assert _gate(worse, "--baseline", baseline).exit_code == 0
+    strict = _gate(worse, "--baseline", baseline, "--tolerance", "0.02")
+    assert strict.exit_code == 1 and "| source | 0.800 | 0.760 | -0.040 | 0.780 | **REGRESSION** |" in strict.output
+    assert _gate(worse, "--baseline", baseline, "--tolerance", "0.02", "--role-tolerance", "source=0.05").exit_code == 0
+    for bad in ("-1", "5"):
+        result = _gate(worse, "--baseline", baseline, "--tolerance", bad)
+        assert result.exit_code == 2 and "must lie in [0, 1]" in result.output
+    unknown = _gate(worse, "--baseline", baseline, "--role-tolerance", "captain=0.1")
+    assert unknown.exit_code == 2 and "names no score of the baseline: captain" in unknown.output
+    assert "choose from: destination, micro, mover, path, source, trigger" in unknown.output
+
+
+def test_junit_output_may_not_replace_the_report_read_from_its_folder(tmp_path, files):
+    _, report, baseline = files
+    folder = tmp_path / "run"
+    folder.mkdir()
+    (folder / "report.json").write_text(report.read_text())
+    before = (folder / "report.json").read_text()
+    result = _gate(folder, "--baseline", baseline, "--junit", folder / "report.json")
+    assert result.exit_code == 2 and "also an input" in result.output
+    assert (folder / "report.json").read_text() == before

@@ -40,8 +40,20 @@ def test_truncated_file_is_refused(model_file):
 
 
 def test_missing_digest_and_foreign_files_are_refused(tmp_path, model_file):
+    good = digest_path(model_file).read_text()
+    digest_path(model_file).write_text("garbage\n")
+    with pytest.raises(ModelFileError, match=r"line 1 of the digest file m.itin.sha256 is not `<SHA-256 in hex>  <file name>`"):
+        load_model(model_file)
+    renamed = model_file.with_name("copy.itin")
+    renamed.write_bytes(model_file.read_bytes())
+    digest_path(renamed).write_text(good)
+    with pytest.raises(ModelFileError, match=r"is for another file \('m.itin'\)") as raised:
+        load_model(renamed)
+    assert "give it its name back (m.itin) or write its new name in place of the old one" in raised.value.fix
+    digest_path(renamed).write_text(good.replace("m.itin", "copy.itin"))
+    assert load_model(renamed).model == {"weights": [1, 2, 3]}  # the renamed copy loads once its digest names it
     digest_path(model_file).unlink()
-    with pytest.raises(ModelFileError, match="no readable digest file"):
+    with pytest.raises(ModelFileError, match="no digest file m.itin.sha256 beside it"):
         load_model(model_file)
     foreign = tmp_path / "foreign.itin"
     foreign.write_bytes(b"\x80\x04K\x01.")  # a pickle, but not ours

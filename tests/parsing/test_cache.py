@@ -209,3 +209,13 @@ def test_parse_records_goes_through_the_cache(nlp: Language, tmp_path: Path, par
     assert stats == ParseStats(cached=3, parsed=0, rebuilt_shards=[])
     assert [d.text for d in docs] == TEXTS
     assert parser_calls == [TEXTS]
+
+
+def test_a_cache_that_cannot_be_written_is_left_out_not_fatal(nlp: Language, tmp_path: Path) -> None:
+    blocked = tmp_path / "a-file"
+    blocked.write_text("not a folder\n", encoding="utf-8")
+    docs, stats = parse_with_cache(nlp, TEXTS, cache_dir=blocked / "cache")
+    assert [annotations(d) for d in docs] == [annotations(d) for d in parse_texts(nlp, TEXTS)]
+    assert stats.parsed == 3 and stats.unwritable.startswith(str(blocked / "cache"))
+    _, fine = parse_with_cache(nlp, TEXTS, cache_dir=tmp_path / "cache")
+    assert fine.unwritable == ""

@@ -456,4 +456,5 @@ def agreement_files(paths: Sequence[Path | str], *, roles: Sequence[str] = DEFAU
                           "name one file (or folder) per annotator, e.g. `itinerant agree ann.jsonl bea.jsonl`")
     names = annotator_names(paths)
     roles = check_roles(roles)
-    return agreement({name: read_corpus([path], roles=roles).records for name, path in zip(names, paths)}, roles=roles)
+    read = {name: read_corpus([path], roles=roles, skippable=False).records for name, path in zip(names, paths)}
+    return agreement(read, roles=roles)

@@ -34,7 +34,8 @@ from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any
 
-from trainer.annotation.itinerary import PLACE_ROLES, Itinerary, ItineraryRow, fold, table_separator
+from trainer.annotation.itinerary import PLACE_ROLES, Itinerary, ItineraryRow, fold
+from trainer.corpus.convert.table import table_separator
 from trainer.corpus.jsonl import not_utf8
 from trainer.errors import GazetteerError, opening
 from trainer.outputs import write_text

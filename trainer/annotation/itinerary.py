@@ -56,7 +56,8 @@ from typing import Iterable, Sequence
 import pandas as pd
 
 from trainer.corpus.records import Event, Record
-from trainer.errors import ConfigError, TableFormatError
+from trainer.corpus.convert.table import LINE_END, table_separator
+from trainer.errors import ConfigError
 from trainer.outputs import write_text
 
 FIRST_PERSON = "first_person"
@@ -68,8 +69,6 @@ COLUMNS = (
     "doc", "id", "order", "event", "mover", "trigger", "source", "path", "destination",
     "confidence", "mover_carried", "matched",
 )  # fmt: skip
-SEPARATORS = {".csv": ",", ".tsv": "\t"}
-LINE_END = "\r\n"  # as the flat table writer (RFC 4180)
 _APOSTROPHES = str.maketrans({"\u2019": "'", "\u2018": "'", "\u02bc": "'", "\u2032": "'"})
 _SPACE = re.compile(r"\s+")
 
@@ -258,15 +257,6 @@ def build_itinerary(
     return Itinerary(rows=tuple(rows), movers=entries, carry_mover=carry_mover, left_out=left_out,
                      unannotated=unannotated, min_confidence=floor, below_floor=below_floor,
                      roles_below_floor=roles_below_floor, with_confidence=with_confidence)
-
-
-def table_separator(path: Path) -> str:
-    """``,`` for ``.csv``, a tab for ``.tsv``; anything else is refused."""
-    suffix = Path(path).suffix.lower()
-    if suffix not in SEPARATORS:
-        raise TableFormatError(f"{path}: a table must end in {' or '.join(SEPARATORS)}, not {suffix or 'nothing'!r}",
-                               "rename the file (.csv for commas, .tsv for tabs)")
-    return SEPARATORS[suffix]
 
 
 def write_itinerary(itinerary: Itinerary, path: Path | str) -> Path:

@@ -160,8 +160,8 @@ def merge_files(
     ``output`` may be one of the corpus files (the write is atomic), but not a batch.
     """
     check_output(output, inputs=batches, what="merged corpus")
-    corpus_records = read_corpus(list(corpus), roles=roles).records
-    batch_records = [read_corpus([batch], roles=roles).records for batch in batches]
+    corpus_records = read_corpus(list(corpus), roles=roles, skippable=False).records
+    batch_records = [read_corpus([batch], roles=roles, skippable=False).records for batch in batches]
     result = merge_batches(corpus_records, batch_records)
     write_jsonl(result.records, Path(output))
     return result

@@ -110,7 +110,7 @@ def read_auxiliary(sources: Sequence[str], *, target: Sequence[Record],
     target_ids = {r.id for r in target}
     out: list[AuxiliaryCorpus] = []
     for source in sources:
-        usable, _ = read_corpus([source_path(source)], roles=None).training_records()
+        usable, _ = read_corpus([source_path(source)], roles=None, skippable=False).training_records()
         kept = [r for r in usable if r.doc not in target_docs and r.id not in target_ids]
         kept, outside = within_inventory(kept, roles)
         name = _domain_name(source, {c.name for c in out})

@@ -27,10 +27,19 @@ def read_text(path: Path, *, what: str = "a file") -> str:
         raise not_utf8(path) from None
 
 
+BINARY_FIX = "this is a binary file (a model file, a spreadsheet, an archive?), not text: name the text file meant"
+
+
 def not_utf8(path: Path, fix: str = "re-save the file as UTF-8") -> UnreadableInputError:
-    """The error for a file that is not UTF-8, locating its first undecodable byte (line and byte offset)."""
+    """The error for a file that is not UTF-8, locating its first undecodable byte (line and byte offset).
+
+    A file with a NUL byte in its first 8 KiB is binary, not text in another encoding: the fix says so.
+    """
     decoder, offset, line = codecs.getincrementaldecoder("utf-8")(), 0, 1
     with open(path, "rb") as handle:
+        if b"\0" in handle.read(1 << 13):
+            fix = BINARY_FIX
+        handle.seek(0)
         for block in chain(iter(lambda: handle.read(1 << 16), b""), [b""]):  # the empty block ends the decoding
             try:
                 decoder.decode(block, final=not block)

@@ -60,14 +60,16 @@ def expand_paths(paths: Iterable[Path | str], pattern: str = "*.jsonl") -> list[
 
 
 def read_corpus(
-    paths: Sequence[Path | str], *, roles: tuple[str, ...] | None = DEFAULT_ROLES, skip_bad: bool = False
+    paths: Sequence[Path | str], *, roles: tuple[str, ...] | None = DEFAULT_ROLES, skip_bad: bool = False,
+    skippable: bool = True,
 ) -> Corpus:
     """Read canonical JSONL files or folders of them into a :class:`Corpus`.
 
     ``roles`` is the role inventory; ``None`` accepts any role name.
 
     Raises :class:`CorpusError` listing the errors when any record is bad and
-    ``skip_bad`` is false.
+    ``skip_bad`` is false; its fix names ``--skip-bad`` only when ``skippable``
+    (the command offers that option).
     """
     files = expand_paths(paths)
     check = check_files(files, roles)
@@ -77,7 +79,8 @@ def read_corpus(
         more = f"\n... and {len(errors) - MAX_LISTED} more" if len(errors) > MAX_LISTED else ""
         raise CorpusError(
             f"{len(errors)} error(s) in {check.bad_records} record(s):\n{shown}{more}",
-            "fix them (run `itinerant check` for the full list) or pass --skip-bad to leave those records out",
+            "fix them (run `itinerant check` for the full list)"
+            + (" or pass --skip-bad to leave those records out" if skippable else ""),
         )
     return Corpus(records=[r for _, _, r in check.records], files=files, skipped=errors, warnings=check.warnings)
 

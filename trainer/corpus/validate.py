@@ -140,6 +140,7 @@ class _LineChecker:
             return None
         checked = [self.role(role, f"{where}.roles[{i}]", text) for i, role in enumerate(roles)]
         self.mover_is_place(checked, where, text)
+        self.overlapping(trigger, checked, where, text)
         return (tuple(trigger) if trigger else None, tuple(sorted(r for r in checked if r)))
 
     def role(self, role: Any, where: str, text: str) -> tuple[str, tuple[int, int]] | None:
@@ -171,6 +172,28 @@ class _LineChecker:
         for span in sorted(movers & places):
             self.add(f"{where}.roles", f"the mover {text[span[0]:span[1]]!r} is also marked as a place",
                      "a mover changes location; a place is where it moves from, through or to", WARNING)
+
+    def overlapping(self, trigger: tuple[int, int] | None, roles: list[Any], where: str, text: str) -> None:
+        """Spans of one event overlap neither the trigger nor each other (a mover marked as a place aside)."""
+        def words(span: tuple[int, int]) -> str:
+            return repr(text[span[0]:span[1]])
+
+        for i, role in enumerate(roles):
+            if not role:
+                continue
+            name, span = role
+            if trigger and span[0] < trigger[1] and trigger[0] < span[1]:
+                self.add(f"{where}.roles[{i}].span", f"the {name} {words(span)} overlaps the trigger {words(trigger)}",
+                         "mark the trigger word and each role's own words apart", WARNING)
+            for j in range(i + 1, len(roles)):
+                other = roles[j]
+                if not other or not (span[0] < other[1][1] and other[1][0] < span[1]):
+                    continue
+                if span == other[1] and {name, other[0]} & {"mover"} and {name, other[0]} & set(PLACE_ROLES):
+                    continue  # said by mover_is_place
+                self.add(f"{where}.roles[{j}].span", f"the {other[0]} {words(other[1])} overlaps roles[{i}], "
+                         f"the {name} {words(span)}", "give each role its own words (repeat a span only under "
+                         "another event)", WARNING)
 
     def check(self, obj: Any) -> dict[str, Any] | None:
         """Check one parsed JSON value; return it when it makes a usable record."""

@@ -23,7 +23,7 @@ from spacy.tokens import Doc
 from trainer.config import ExperimentConfig, check_jobs
 from trainer.corpus.reader import Corpus, expand_paths, read_corpus
 from trainer.corpus.records import Record
-from trainer.errors import ConfigError, CorpusError
+from trainer.errors import ConfigError, CorpusError, OutputError
 from trainer.evaluation.breakdown import fold_name
 from trainer.evaluation.extrapolate import extrapolate_curve, extrapolation_report
 from trainer.evaluation.folds import FoldPlan, fixed_split, grouped_kfold, leave_one_book_out, leave_one_doc_out
@@ -91,8 +91,9 @@ def run_crossval(
     if docs is None:
         docs, stats = parse_records(nlp, annotated, configs[0].parser, scheduler=scheduler)
         parsed, cached = stats.parsed, stats.cached
+        stats_note = f"note: parse cache not written ({stats.unwritable}); going on without it" if stats.unwritable else ""
     else:
-        parsed, cached = 0, len(docs)
+        parsed, cached, stats_note = 0, len(docs), ""
     if auxiliary is None:
         auxiliary = parse_auxiliary([s for c in configs for s in c.auxiliary.corpora], target=annotated, nlp=nlp,
                                     parser=configs[0].parser, roles=configs[0].roles, scheduler=scheduler)
@@ -118,6 +119,8 @@ def run_crossval(
     if progress:
         progress(f"{len(annotated)} records parsed ({cached} from cache) in {parse_seconds:.1f} s; "
                  f"{len(tasks)} training runs ({len(configs)} config(s) x {sum(len(p.folds) for p in plans)} fold(s))")
+        if stats_note:
+            progress(stats_note)
         for parsed_aux in auxiliary.values():
             aux = parsed_aux.corpus
             progress(f"auxiliary corpus '{aux.name}' ({aux.source}): {len(aux.records)} record(s) join every training "
@@ -196,6 +199,15 @@ def read_run_corpus(corpus_paths: Sequence[Path], roles: tuple[str, ...], *, tes
     return combined, sorted({r.doc for r in test.records})
 
 
+def check_outside(folder: Path, inputs: Sequence[Path]) -> None:
+    """Refuse an input that lies inside the report folder, whose files (predictions among them) a run replaces."""
+    inside = folder.resolve()
+    for path in inputs:
+        if path.exists() and inside in Path(path).resolve().parents:
+            raise OutputError(f"{path}: this input lies inside the report folder {folder}, whose files the run replaces",
+                              "write the report to another folder (-o), or move the input out of it")
+
+
 def crossval_experiment(corpus_paths: Sequence[Path | str], settings: RunSettings, folder: Path | str, *,
                         test_paths: Sequence[Path] = (), jobs: int = 1, scheduler: str | None = None,
                         curve_shares: Sequence[float] = (), skip_bad: bool = False,
@@ -205,11 +217,14 @@ def crossval_experiment(corpus_paths: Sequence[Path | str], settings: RunSetting
 
     The folder is checked and locked before anything is read, so a second run to it is refused at once.
     """
-    from trainer.experiment.curve import learning_curve
+    from trainer.experiment.curve import check_shares, learning_curve
 
     check_jobs(jobs)
+    if curve_shares:
+        check_shares(curve_shares)
     corpus_paths, folder = [Path(p) for p in corpus_paths], Path(folder)
     check_output(folder, inputs=[*corpus_paths, *settings.config_paths, *test_paths], folder=True, what="report folder")
+    check_outside(folder, [*corpus_paths, *settings.config_paths, *test_paths])
     with output_lock(folder):
         started = time.perf_counter()
         corpus, test_docs = read_run_corpus(corpus_paths, settings.roles, test_paths=test_paths, skip_bad=skip_bad)

@@ -36,6 +36,12 @@ def shrink_plan(plan: FoldPlan, share: float, *, seed: int) -> FoldPlan:
     return FoldPlan(f"{plan.kind}@{share:g}", plan.seed, folds, plan.repeat)
 
 
+def check_shares(shares: Sequence[float]) -> None:
+    """Refuse, before any training, shares of training docs outside (0, 1] or none at all."""
+    if not shares or any(not 0 < s <= 1 for s in shares):
+        raise ConfigError(f"shares must lie in (0, 1], got {list(shares)}", "e.g. --shares 0.25,0.5,0.75,1")
+
+
 def learning_curve(
     records: Sequence[Record], configs: Sequence[ExperimentConfig], plans: Sequence[FoldPlan], *,
     shares: Sequence[float] = DEFAULT_SHARES, settings: EvaluationSettings | None = None,
@@ -49,8 +55,7 @@ def learning_curve(
     reuses parses already made, so no record is parsed twice in a run;
     ``full_run`` (the run on ``plans`` itself) serves as the 1.0 point instead of training again.
     """
-    if not shares or any(not 0 < s <= 1 for s in shares):
-        raise ConfigError(f"shares must lie in (0, 1], got {list(shares)}", "e.g. --shares 0.25,0.5,0.75,1")
+    check_shares(shares)
     if full_run is not None and [s.name for s in full_run.systems] != [c.name for c in configs]:
         raise ConfigError(f"the full run holds configs {[s.name for s in full_run.systems]}, the curve "
                           f"{[c.name for c in configs]}", "pass the run of exactly these configs, in this order")

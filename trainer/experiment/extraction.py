@@ -7,6 +7,7 @@ from pathlib import Path
 from typing import Any, Callable, Sequence
 
 from trainer.config import check_batch_size, check_jobs
+from trainer.corpus.convert.table import table_separator
 from trainer.errors import ConfigError
 
 
@@ -35,6 +36,8 @@ def check_options(options: ExtractOptions) -> None:
                           f"use one of: {', '.join(INPUT_FORMATS)} (or leave it out: by the file's extension)")
     check_batch_size(options.batch_size)
     check_jobs(options.jobs)
+    if options.table is not None:
+        table_separator(options.table)
     if options.doc is not None and not options.doc.strip():
         raise ConfigError("--doc is empty: every record needs a document name", "name the document, or leave --doc out "
                           "for the file's name")
@@ -94,6 +97,10 @@ def _extract_book(model: Path, source: Path, output: Path, options: ExtractOptio
     if options.table:
         check_output(options.table, inputs=[*inputs, output], what="event table")
     trained, _ = load_extractor(model)
+    if options.compare:
+        from trainer.experiment.score import gold_records
+
+        gold_records(source, roles=trained.roles, skip_bad=options.skip_bad, skippable=True)  # refused before anything is written
     summary = extract_file(trained, source, output, input_format=fmt, doc_name=options.doc,
                            batch_size=options.batch_size, resume=options.resume, skip_bad=options.skip_bad,
                            on_progress=on_progress)
@@ -103,7 +110,8 @@ def _extract_book(model: Path, source: Path, output: Path, options: ExtractOptio
         from trainer.experiment.score import score_report
 
         # Records skipped above count as missed.
-        comparison = score_report(source, output, roles=trained.roles, settings=EvaluationSettings(), allow_missing=True)
+        comparison = score_report(source, output, roles=trained.roles, settings=EvaluationSettings(), allow_missing=True,
+                                  skip_bad=options.skip_bad)
     if options.table:
         from trainer.corpus.convert import convert_file
 

@@ -10,6 +10,7 @@ from typing import Any, Sequence
 from trainer.config import check_jobs
 from trainer.corpus.auxiliary import local_paths
 from trainer.corpus.reader import expand_paths, read_corpus, skipped_summary
+from trainer.errors import ConfigError
 from trainer.evaluation.runs import Progress
 from trainer.experiment.settings import RunSettings
 from trainer.outputs import check_output, output_lock
@@ -71,6 +72,12 @@ def fit_model(corpus: Sequence[Path], output: Path, settings: RunSettings, *, sk
             say(f"left out {len(unreviewed)} pre-annotated record(s) nobody has reviewed (provenance 'predicted'): "
                 f"{', '.join(unreviewed[:10])}{' ...' if len(unreviewed) > 10 else ''}")
         docs = len({r.doc for r in annotated})
+        learns_confidence = config.confidence.calibration != "none" or config.confidence.thresholds != "none"
+        if learns_confidence and docs < 2:
+            raise ConfigError(f"[confidence] learns from held-out predictions on inner folds over the corpus's docs, "
+                              f"so it needs at least two annotated docs; this corpus has {docs}",
+                              "annotate a second doc (or name each chapter its own doc), or leave out --calibration "
+                              "and --thresholds ([confidence] in the config)")
         say(f"training '{config.name}' on {len(annotated)} annotated record(s) from {docs} doc(s)")
         started = time.perf_counter()
         with parallel_config(n_jobs=jobs):

@@ -9,7 +9,7 @@ from typing import Any, Sequence
 from trainer.config import load_config
 from trainer.errors import GateInputError
 from trainer.gate.compare import (GateResult, accept_baseline, check_baseline, compare, gate_config_of, load_report,
-                                  read_json)
+                                  pick_system, read_json, system_f1s)
 from trainer.gate.junit import junit_xml
 from trainer.outputs import check_output, write_text
 
@@ -59,23 +59,39 @@ def role_tolerances(items: Sequence[str]) -> dict[str, float]:
 
 
 def run_gate(request: GateRequest) -> GateOutcome:
-    """Check every output and setting first, then compare (writing JUnit XML when asked) or accept."""
+    """Check every output and setting first, then compare (writing JUnit XML when asked) or accept.
+
+    ``--tolerance`` sets the allowed drop of every score, the config's per-score
+    tolerances included; ``--role-tolerance`` then sets single scores, each of
+    which must be a score of the gated report.
+    """
+    report_file = request.report / "report.json" if request.report.is_dir() else request.report
     if request.junit:
-        check_output(request.junit, inputs=[request.report, request.baseline], what="JUnit file")
+        check_output(request.junit, inputs=[request.report, report_file, request.baseline], what="JUnit file")
     if request.accept:
-        check_output(request.baseline, inputs=[request.report, request.report / "report.json"], what="baseline")
+        check_output(request.baseline, inputs=[request.report, report_file], what="baseline")
     if request.rule is not None and request.rule not in GATE_RULES:
         raise GateInputError(f"--rule {request.rule!r} is not a gate rule", f"use {' or '.join(GATE_RULES)}")
+    if request.tolerance is not None and not 0 <= request.tolerance <= 1:
+        raise GateInputError(f"--tolerance {request.tolerance:g}: an allowed F1 drop must lie in [0, 1]",
+                             "e.g. --tolerance 0.02")
     overrides = role_tolerances(request.role_tolerances)
     data = load_report(request.report)
     base = None if request.accept else read_json(request.baseline, "baseline")
     if base is not None:
         check_baseline(base)
-    settings = (load_config(request.config).gate if request.config
-                else gate_config_of(data, request.system or (base or {}).get("system")))
+    system = request.system or (base or {}).get("system")
+    known = sorted(base["f1"]) if base is not None and isinstance(base.get("f1"), dict) else sorted(
+        system_f1s(pick_system(data, system)))
+    unknown = [name for name in overrides if name not in known]
+    if unknown:
+        raise GateInputError(f"--role-tolerance names no score of the {'baseline' if base is not None else 'report'}: "
+                             f"{', '.join(unknown)}", f"choose from: {', '.join(known)}")
+    settings = load_config(request.config).gate if request.config else gate_config_of(data, system)
+    kept = settings.role_tolerances if request.tolerance is None else {}
     settings = replace(settings, rule=request.rule or settings.rule,
                        tolerance=settings.tolerance if request.tolerance is None else request.tolerance,
-                       role_tolerances={**settings.role_tolerances, **overrides})
+                       role_tolerances={**kept, **overrides})
     if request.accept:
         return GateOutcome(accepted=accept_baseline(request.report, request.baseline, system=request.system,
                                                     config=settings))

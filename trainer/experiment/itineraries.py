@@ -8,6 +8,7 @@ from typing import Sequence
 
 from trainer.annotation.geo import MapResult, build_geojson, read_gazetteer, write_geojson
 from trainer.annotation.itinerary import Itinerary, build_itinerary, check_min_confidence, write_itinerary
+from trainer.corpus.convert.table import table_separator
 from trainer.corpus.reader import expand_paths, read_corpus, skipped_summary
 from trainer.errors import ConfigError
 from trainer.outputs import check_output
@@ -28,21 +29,23 @@ def itinerary_files(records: Sequence[Path], output: Path, *, movers: Sequence[s
                     skip_bad: bool = False, min_confidence: float | None = None) -> ItineraryOutcome:
     """Write the itinerary table of the records' events and, with a gazetteer, the route as GeoJSON.
 
-    Settings and every output are checked before anything is read.
+    Settings and every output are checked before anything is read, and every input (the gazetteer too) is read
+    before anything is written.
     """
     check_min_confidence(min_confidence)
     if bool(gazetteer) != bool(geojson):
         raise ConfigError("--gazetteer and --geojson go together", "give both to write a map, or neither")
     inputs = [*records, *expand_paths(records), *([gazetteer] if gazetteer else [])]
     check_output(output, inputs=inputs, what="itinerary table")
+    table_separator(output)
     if geojson:
         check_output(geojson, inputs=[*inputs, output], what="GeoJSON file")
+    places = read_gazetteer(gazetteer) if gazetteer else None
     corpus = read_corpus(records, skip_bad=skip_bad)
     route = build_itinerary(corpus.records, movers=list(movers) if movers else None, carry_mover=carry_mover,
                             min_confidence=min_confidence)
+    mapped = build_geojson(route, places) if places is not None else None
     write_itinerary(route, output)
-    mapped = None
-    if gazetteer and geojson:
-        mapped = build_geojson(route, read_gazetteer(gazetteer))
+    if mapped is not None:
         write_geojson(mapped, geojson)
     return ItineraryOutcome(route, mapped, len(corpus.skipped), skipped_summary(corpus) if corpus.skipped else "")

@@ -13,6 +13,7 @@ from typing import Any, Sequence
 
 from trainer.config import DEFAULT_SEED, DEFAULT_TRIALS, SCORING_MODES
 from trainer.corpus.reader import fingerprint, read_corpus
+from trainer.corpus.records import Record
 from trainer.errors import ConfigError, CorpusError, UnreadableInputError
 from trainer.evaluation.bootstrap import bootstrap_f1s, interval_warning
 from trainer.evaluation.breakdown import breakdown
@@ -26,21 +27,30 @@ from trainer.reports.folder import REPORT_JSON
 from trainer.reports.json_report import dump_json, library_versions
 
 
-def score_report(gold_path: Path, pred_path: Path, *, roles: Sequence[str], settings: EvaluationSettings,
-                 folder: Path | None = None, allow_missing: bool = False) -> dict[str, Any]:
-    """Score any system's predictions (canonical JSONL) against gold with the same scorer as cross-validation.
-
-    Annotated gold records with no predicted record are refused, naming them,
-    unless ``allow_missing``: then they count as misses and the report lists them.
-    """
-    if folder is not None:
-        check_output(folder, inputs=[gold_path, pred_path], folder=True, what="score folder")
-    gold = read_corpus([gold_path], roles=tuple(roles)).records
+def gold_records(gold_path: Path, *, roles: Sequence[str], skip_bad: bool = False,
+                 skippable: bool = False) -> list[Record]:
+    """The records of a gold file, refused when none is annotated (``skip_bad``: bad records left out;
+    ``skippable``: the command offers ``--skip-bad``, so an error about a bad record may suggest it)."""
+    gold = read_corpus([gold_path], roles=tuple(roles), skip_bad=skip_bad, skippable=skippable).records
     if not any(record.is_annotated for record in gold):
         held = f"its {len(gold)} record(s) are all unannotated (no `events` key)" if gold else "it holds no records"
         raise CorpusError(f"{gold_path}: no annotated gold records to score against: {held}",
                           "name the gold file: records with an `events` list ([] for a sentence without motion)")
-    predicted = read_corpus([pred_path], roles=tuple(roles)).records
+    return gold
+
+
+def score_report(gold_path: Path, pred_path: Path, *, roles: Sequence[str], settings: EvaluationSettings,
+                 folder: Path | None = None, allow_missing: bool = False, skip_bad: bool = False) -> dict[str, Any]:
+    """Score any system's predictions (canonical JSONL) against gold with the same scorer as cross-validation.
+
+    Annotated gold records with no predicted record are refused, naming them,
+    unless ``allow_missing``: then they count as misses and the report lists them.
+    ``skip_bad`` leaves out gold records with errors (as an extraction with ``--skip-bad`` did).
+    """
+    if folder is not None:
+        check_output(folder, inputs=[gold_path, pred_path], folder=True, what="score folder")
+    gold = gold_records(gold_path, roles=roles, skip_bad=skip_bad)
+    predicted = read_corpus([pred_path], roles=tuple(roles), skippable=False).records
     missing = missing_predictions(gold, predicted)
     if missing and not allow_missing:
         named = ", ".join(repr(i) for i in missing[:5]) + (f" and {len(missing) - 5} more" if len(missing) > 5 else "")
@@ -97,11 +107,16 @@ def contrast_runs(folder_a: Path, folder_b: Path, *, system_a: str | None = None
     if report_a["corpus"]["fingerprint"] != report_b["corpus"]["fingerprint"]:
         raise CorpusError("the two runs were made on different corpora (fingerprints differ)",
                           "contrast runs made on the same annotated records")
+    plans = (report_a.get("fold_plan_fingerprint"), report_b.get("fold_plan_fingerprint"))
+    if plans[0] != plans[1]:
+        raise CorpusError(f"the two runs held out different folds (fold plans {plans[0]} and {plans[1]}), so a "
+                          "difference would mix the configs with the splits", "rerun one of them with the other's "
+                          "fold options (--folds, --repeats, --seed, --leave-one-doc-out, --leave-one-book-out)")
     if report_a["settings"]["mode"] != report_b["settings"]["mode"]:
         raise CorpusError(f"the runs use different scoring modes ({report_a['settings']['mode']} vs "
                           f"{report_b['settings']['mode']})", "rerun one of them with the other's --mode")
     roles = tuple(report_a["roles"])
-    gold = read_corpus(report_a["corpus"]["files"], roles=roles).annotated()
+    gold = read_corpus(report_a["corpus"]["files"], roles=roles, skippable=False).annotated()
     if fingerprint(gold) != report_a["corpus"]["fingerprint"]:
         raise CorpusError("the corpus files named in the report have changed since the run",
                           "rerun the cross-validation on the current files")
@@ -111,7 +126,7 @@ def contrast_runs(folder_a: Path, folder_b: Path, *, system_a: str | None = None
         system = next((s for s in report["systems"] if name in (None, s["name"])), None)
         if system is None:
             raise ConfigError(f"{folder}: no config named {name!r}", f"choose from: {[s['name'] for s in report['systems']]}")
-        predicted = read_corpus([folder / system["predictions"]], roles=roles).records
+        predicted = read_corpus([folder / system["predictions"]], roles=roles, skippable=False).records
         picked.append((system["name"], count_corpus(gold, predicted, roles=roles, mode=mode)))
     (name_a, counts_a), (name_b, counts_b) = picked
     tests = compare_f1s(counts_a.units(by="doc"), counts_b.units(by="doc"), roles, trials=trials, seed=seed)

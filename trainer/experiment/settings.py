@@ -100,6 +100,10 @@ def resolve_settings(config_paths: Sequence[Path | str] = (), overrides: Overrid
     configs = [add_auxiliary(load_config(p), overrides.auxiliary, overrides.augment) for p in read]
     if overrides.confidence():
         configs = [replace(c, confidence=replace(c.confidence, **overrides.confidence())) for c in configs]
+    if overrides.target_precision is not None and any(c.confidence.thresholds != "precision" for c in configs):
+        raise ConfigError("--target-precision is read only when each label's threshold is chosen for precision",
+                          "add --thresholds precision (or set [confidence] thresholds = \"precision\"), "
+                          "or leave --target-precision out")
     check_sources([source for c in configs for source in c.auxiliary.corpora])
     for config, path in zip(configs, read):
         check_config_inputs(config, str(path))
@@ -116,6 +120,10 @@ def resolve_settings(config_paths: Sequence[Path | str] = (), overrides: Overrid
     if sum([folds.leave_one_doc_out, folds.leave_one_book_out, bool(folds.test_docs)]) > 1:
         raise ConfigError("choose one way to split: --leave-one-doc-out, --leave-one-book-out or a fixed split",
                           "drop all but one of them")
+    fixed = folds.leave_one_doc_out or folds.leave_one_book_out or bool(folds.test_docs)
+    if fixed and (overrides.folds is not None or overrides.repeats is not None):
+        raise ConfigError("--folds and --repeats set K shuffled folds; a leave-one-out or fixed split makes its own",
+                          "drop --folds and --repeats, or the leave-one-out or fixed split")
     return RunSettings(configs, settings, folds, paths)
 
 

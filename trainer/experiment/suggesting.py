@@ -23,7 +23,7 @@ def suggest_to_file(model: Path, unlabeled: Path, output: Path, *, count: int = 
     """Read unannotated sentences (JSONL records without events, or plain text), pick ``count`` of them by the
     model's uncertainty spread over docs and trigger lemmas, and write them pre-annotated as canonical JSONL."""
     from trainer.annotation.suggest import suggest_batch
-    from trainer.corpus.jsonl import write_jsonl
+    from trainer.corpus.jsonl import not_utf8, write_jsonl
     from trainer.corpus.reader import read_corpus
     from trainer.models.persist import digest_path
     from trainer.models.training import load_extractor, parser_for
@@ -36,7 +36,7 @@ def suggest_to_file(model: Path, unlabeled: Path, output: Path, *, count: int = 
     trained, _ = load_extractor(model)
     nlp = parser_for(trained.config)
     if unlabeled.suffix == ".jsonl":
-        read = read_corpus([unlabeled], roles=trained.roles).records
+        read = read_corpus([unlabeled], roles=trained.roles, skippable=False).records
         records = [r for r in read if not r.is_annotated]
         docs = None
         if read and not records:
@@ -45,7 +45,11 @@ def suggest_to_file(model: Path, unlabeled: Path, output: Path, *, count: int = 
                               "give records without `events` (or a plain-text file); a suggested batch is already "
                               "pre-annotated")
     else:
-        pairs = list(sentence_records(nlp, iter_paragraphs(unlabeled), doc_name=unlabeled.stem, source=str(unlabeled)))
+        try:
+            pairs = list(sentence_records(nlp, iter_paragraphs(unlabeled), doc_name=unlabeled.stem,
+                                          source=str(unlabeled)))
+        except UnicodeDecodeError:
+            raise not_utf8(unlabeled) from None
         records, docs = [r for r, _ in pairs], [d for _, d in pairs]
     if not records:
         raise CorpusError(f"{unlabeled}: holds no sentences (empty or blank lines only)",

@@ -115,7 +115,7 @@ def _get(data: Any, path: tuple[str, ...]) -> Any:
 def baseline_from_report(report: dict[str, Any], *, system: str | None, scores: list[str]) -> dict[str, Any]:
     """The baseline record of one config of a report."""
     chosen = pick_system(report, system)
-    f1s = _f1s(chosen)
+    f1s = system_f1s(chosen)
     missing = [s for s in scores if s not in f1s]
     if missing:
         raise GateInputError(f"the report has no score(s) {missing}", f"gate some of: {', '.join(f1s)}")
@@ -137,7 +137,7 @@ def _interval(system: dict[str, Any], score: str) -> list[float]:
     return [score_value(end, f"{where}[{i}]", "evaluation report") for i, end in enumerate(interval)]
 
 
-def _f1s(system: dict[str, Any]) -> dict[str, float]:
+def system_f1s(system: dict[str, Any]) -> dict[str, float]:
     """Every F1 of one config of a report, each checked to be a finite number."""
     where = f"systems[{system.get('name')!r}].scores"
     roles = _get(system, ("scores", "roles"))
@@ -191,7 +191,7 @@ def compare(report: dict[str, Any], baseline: dict[str, Any], config: GateConfig
                              "compare like with like, re-record the baseline with --accept after an intended change, "
                              "or pass --allow-mismatch")
     gated = system or baseline["system"]
-    f1s = _f1s(pick_system(report, gated))
+    f1s = system_f1s(pick_system(report, gated))
     verdicts = []
     for score, before in baseline["f1"].items():
         if score not in f1s:

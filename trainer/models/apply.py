@@ -28,7 +28,7 @@ from trainer.config import check_batch_size
 from trainer.corpus.jsonl import dumps_record, not_utf8
 from trainer.corpus.reader import iter_records
 from trainer.corpus.records import Record
-from trainer.errors import CorpusError, UnreadableInputError
+from trainer.errors import CorpusError, ItinerantError, UnreadableInputError
 from trainer.models.training import TrainedExtractor, parser_for
 from trainer.outputs import WRITE_ERRNOS, check_output, output_lock, publish, write_failed, write_text
 from trainer.parsing.parse import parse_records
@@ -248,6 +248,11 @@ def extract_file(
                     partial.unlink()
                     input_note_path(partial).unlink()
                 raise (not_utf8(source) if isinstance(exc, UnicodeDecodeError) else exc) from None
+            except ItinerantError:  # a bad record: a partial file holding nothing is of no use to a resume
+                if base is None and summary.sentences == 0:
+                    partial.unlink()
+                    input_note_path(partial).unlink()
+                raise
             except OSError as exc:
                 if exc.errno not in WRITE_ERRNOS:
                     raise

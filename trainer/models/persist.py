@@ -83,19 +83,32 @@ def _verified_bytes(path: Path) -> bytes:
         raise ModelFileError(f"{path}: no such model file", "train one with `itinerant fit`") from None
     except OSError as exc:
         raise ModelFileError(f"{path}: cannot read the model file ({exc.strerror})", "check its permissions") from None
+    digest_file = digest_path(path)
     try:
-        lines = [line.split() for line in digest_path(path).read_text(encoding="ascii").splitlines() if line.strip()]
-        listed = {digest: named for digest, named in lines}
-    except (OSError, ValueError, UnicodeDecodeError):
-        raise ModelFileError(f"{path}: no readable digest file {digest_path(path).name} beside it",
+        lines = [line.split() for line in digest_file.read_text(encoding="ascii").splitlines() if line.strip()]
+    except FileNotFoundError:
+        raise ModelFileError(f"{path}: no digest file {digest_file.name} beside it",
                              "model files are pickles: only load files written by `itinerant fit` with their digest") from None
+    except (OSError, UnicodeDecodeError) as exc:
+        reason = exc.strerror if isinstance(exc, OSError) else "not ASCII text"
+        raise ModelFileError(f"{path}: the digest file {digest_file.name} cannot be read ({reason})",
+                             "model files are pickles: only load files written by `itinerant fit` with their digest") from None
+    malformed = next((n for n, fields in enumerate(lines, start=1)
+                      if len(fields) != 2 or len(fields[0]) != 64 or fields[0].strip("0123456789abcdef")), None)
+    if malformed is not None:
+        raise ModelFileError(f"{path}: line {malformed} of the digest file {digest_file.name} is not "
+                             "`<SHA-256 in hex>  <file name>`",
+                             "model files are pickles: only load files written by `itinerant fit` with their digest")
+    listed = {digest: named for digest, named in lines}
     if not listed:
-        raise ModelFileError(f"{path}: the digest file {digest_path(path).name} is empty",
+        raise ModelFileError(f"{path}: the digest file {digest_file.name} is empty",
                              "model files are pickles: only load files written by `itinerant fit` with their digest")
     other = next((named for named in listed.values() if named.lstrip("*") != path.name), None)
     if other is not None:
-        raise ModelFileError(f"{path}: the digest file {digest_path(path).name} is for another file ({other!r})",
-                             "keep each model file with its own digest file, as `itinerant fit` wrote them")
+        raise ModelFileError(f"{path}: the digest file {digest_file.name} is for another file ({other!r})",
+                             f"keep each model file with its own digest file, as `itinerant fit` wrote them; after "
+                             f"renaming a model you trust, give it its name back ({other.lstrip('*')}) or write its "
+                             f"new name in place of the old one in {digest_file.name}")
     actual = hashlib.sha256(data).hexdigest()
     expected = next(iter(listed))
     if actual not in listed:

@@ -37,6 +37,7 @@ class ParseStats:
     cached: int = 0
     parsed: int = 0
     rebuilt_shards: list[str] = field(default_factory=list)
+    unwritable: str = ""  # why the cache could not be written (the run goes on without it), or ""
 
 
 class ParseCache:
@@ -96,19 +97,30 @@ class ParseCache:
         self.index["shards"].pop(shard, None)
         self.index["entries"] = {k: v for k, v in self.index["entries"].items() if v[0] != shard}
 
-    def store(self, keyed_docs: Sequence[tuple[str, Doc]]) -> None:
-        """Write new docs as one shard and update the index atomically."""
+    def store(self, keyed_docs: Sequence[tuple[str, Doc]]) -> str:
+        """Write new docs as one shard and update the index atomically.
+
+        Returns ``""``, or why the cache could not be written (a read-only or full disk): the cache only saves
+        parsing again, so the run goes on without it.
+        """
         if not keyed_docs:
-            return
-        self.folder.mkdir(parents=True, exist_ok=True)
+            return ""
         data = DocBin(attrs=ATTRS, docs=[d for _, d in keyed_docs]).to_bytes()
         digest = hashlib.sha256(data).hexdigest()
         shard = f"shard-{digest[:16]}.spacy"
-        write_shared_bytes(self.folder / shard, data)
+        try:
+            self.folder.mkdir(parents=True, exist_ok=True)
+            write_shared_bytes(self.folder / shard, data)
+        except OSError as exc:
+            return f"{self.folder}: {exc.strerror or exc}"
         self.index["shards"][shard] = digest
         for position, (key, _) in enumerate(keyed_docs):
             self.index["entries"][key] = [shard, position]
-        write_shared_bytes(self.index_path, json.dumps(self.index, sort_keys=True).encode("utf-8"))
+        try:
+            write_shared_bytes(self.index_path, json.dumps(self.index, sort_keys=True).encode("utf-8"))
+        except OSError as exc:
+            return f"{self.index_path}: {exc.strerror or exc}"
+        return ""
 
 
 def parse_with_cache(
@@ -135,7 +147,7 @@ def parse_with_cache(
         docs = parser(todo) if parser else parse_texts(nlp, todo, batch_size=batch_size, workers=workers)
         known.update(zip(missing, docs))
         if cache:
-            cache.store(list(zip(missing, docs)))
+            stats.unwritable = cache.store(list(zip(missing, docs)))
     stats.parsed = len(missing)
     missing_keys = set(missing)  # built once: inside the generator it made this count quadratic
     stats.cached = sum(1 for k in keys if k not in missing_keys)

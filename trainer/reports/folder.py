@@ -24,16 +24,27 @@ def write_report_folder(
     folder: Path, run: CrossvalRun, summary: RunSummary, *, corpus_files: Sequence[str], seconds: float,
     learning_curve: dict[str, Any] | None = None,
 ) -> dict[str, Any]:
-    """Write the report folder and return the report data (under the folder's lock, so two runs never mix)."""
+    """Write the report folder and return the report data (under the folder's lock, so two runs never mix).
+
+    Prediction files an earlier run left in the folder for configs this run does not have are removed, so
+    the folder holds one run's files only.
+    """
     folder.mkdir(parents=True, exist_ok=True)
     report = report_dict(run, summary, corpus_files=corpus_files, learning_curve=learning_curve)
     predictions = {}
     with output_lock(folder):
+        written = set()
         for system in run.systems:
             predicted = system.predictions()
             predictions[system.name] = predicted
-            write_jsonl(predicted, folder / "predictions" / f"{system.name}.jsonl")
-            write_jsonl(system.predictions(gold_triggers=True), folder / "predictions" / f"{system.name}.gold-triggers.jsonl")
+            for path, records in ((folder / "predictions" / f"{system.name}.jsonl", predicted),
+                                  (folder / "predictions" / f"{system.name}.gold-triggers.jsonl",
+                                   system.predictions(gold_triggers=True))):
+                write_jsonl(records, path)
+                written.add(path.name)
+        for stale in (folder / "predictions").glob("*.jsonl"):
+            if stale.name not in written:
+                stale.unlink()
         dump_json(report, folder / REPORT_JSON)
         dump_json(run_info(run, summary, seconds), folder / RUN_INFO_JSON)
         write_text(folder / SUMMARY_MD, markdown_summary(report))

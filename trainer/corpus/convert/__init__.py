@@ -37,8 +37,8 @@ Writer = Callable[..., list[str]]  # (records, path, *, roles) -> the losses
 def _read_jsonl(path: Path, *, roles: tuple[str, ...] = DEFAULT_ROLES) -> Conversion:
     """Canonical JSONL, validated by the corpus reader (which refuses files with errors)."""
     try:
-        return Conversion(records=read_corpus([path], roles=roles).records)
-    except CorpusError as exc:  # the reader's hint offers --skip-bad, which convert does not have
+        return Conversion(records=read_corpus([path], roles=roles, skippable=False).records)
+    except CorpusError as exc:  # convert has no --skip-bad: its fix says why
         raise CorpusError(exc.cause, "fix them first (`itinerant check` lists them all); convert copies whole files only") from None
 
 

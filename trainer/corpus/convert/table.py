@@ -25,7 +25,7 @@ from trainer.corpus.convert.base import Conversion, writable
 from trainer.corpus.jsonl import not_utf8
 from trainer.corpus.records import DEFAULT_ROLES, Event, Offsets, Record, RoleSpan
 from trainer.corpus.validate import record_problems, strict_loads
-from trainer.errors import CorpusError, StrictJSONError, UnknownFormatError, UnreadableInputError
+from trainer.errors import CorpusError, StrictJSONError, TableFormatError, UnreadableInputError
 from trainer.outputs import write_text
 
 COLUMNS = (
@@ -45,11 +45,12 @@ LINE_END = "\r\n"
 HEADER_ROWS = 1  # spreadsheet row numbers count the header as row 1
 
 
-def _separator(path: Path) -> str:
-    suffix = path.suffix.lower()
+def table_separator(path: Path | str) -> str:
+    """``,`` for ``.csv``, a tab for ``.tsv`` (any case); anything else is refused."""
+    suffix = Path(path).suffix.lower()
     if suffix not in SEPARATORS:
-        raise UnknownFormatError(f"{path}: a table must end in {' or '.join(SEPARATORS)}, not {suffix or 'nothing'!r}",
-                                 "rename the file (.csv for commas, .tsv for tabs)")
+        raise TableFormatError(f"{path}: a table must end in {' or '.join(SEPARATORS)}, not {suffix or 'nothing'!r}",
+                               "rename the file (.csv for commas, .tsv for tabs)")
     return SEPARATORS[suffix]
 
 
@@ -59,7 +60,7 @@ def _separator(path: Path) -> str:
 def write_table(records: Iterable[Record], path: Path, *, roles: tuple[str, ...] = DEFAULT_ROLES) -> list[str]:
     """Write one row per role instance as CSV or TSV (by extension); return the losses."""
     path = Path(path)
-    separator = _separator(path)
+    separator = table_separator(path)
     losses: list[str] = []
     rows = []
     for record in records:
@@ -178,7 +179,7 @@ class _TableReader:
 
     def load(self) -> pd.DataFrame:
         try:
-            return pd.read_csv(self.path, sep=_separator(self.path), dtype=str, keep_default_na=False,
+            return pd.read_csv(self.path, sep=table_separator(self.path), dtype=str, keep_default_na=False,
                                skip_blank_lines=False, encoding="utf-8-sig")
         except FileNotFoundError:
             raise UnreadableInputError(f"{self.path}: no such file", "check the path") from None
