@@ -81,3 +81,23 @@ def test_every_public_name_resolves_and_importing_the_package_stays_light() -> N
     assert not {"spacy", "sklearn", "trainer.config"} & loaded
     with pytest.raises(AttributeError):
         trainer.no_such_name  # noqa: B018
+
+
+def test_the_public_functions_take_paths_as_strings(demo_train, tmp_path, monkeypatch) -> None:
+    """Everything the CLI does works from Python, where paths are often plain strings."""
+    import trainer
+    from trainer.corpus.records import DEFAULT_ROLES
+    from trainer.experiment.itineraries import itinerary_files
+    from trainer.experiment.settings import scoring_settings
+
+    monkeypatch.chdir(tmp_path)
+    gold = str(demo_train / "quarne-salt-1.jsonl")
+    settings = trainer.resolve_settings([str(PACKAGE.parent / "configs" / "rules.toml")])
+    assert trainer.fit_model([gold], "m.itin", settings).records > 0
+    outcome = trainer.extract("m.itin", [gold], "out.jsonl")
+    assert outcome.book.sentences > 0 and (tmp_path / "out.jsonl").is_file()
+    scored = trainer.score_report(gold, "out.jsonl", roles=DEFAULT_ROLES, settings=scoring_settings(), folder="scored")
+    assert scored["scores"]["micro"]["f1"] > 0 and (tmp_path / "scored" / "score.json").is_file()
+    itinerary_files([gold], "route.tsv")
+    assert (tmp_path / "route.tsv").is_file()
+    assert trainer.GateRequest(report="run", baseline="b.json").report == Path("run")

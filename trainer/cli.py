@@ -75,6 +75,11 @@ def say(message: str = "") -> None:
     typer.echo(message, err=True)
 
 
+INTERRUPTED = 130  # the shell's exit status for a run stopped by Ctrl+C (128 + SIGINT)
+# Commands that can go on from where an interrupted run stopped, and how.
+RESUMABLE = {"extract": "; run the same command with --resume to go on from where it stopped"}
+
+
 def user_errors(command: Callable) -> Callable:
     """Turn the package's errors into a message and an exit code."""
 
@@ -85,6 +90,10 @@ def user_errors(command: Callable) -> Callable:
         except ItinerantError as exc:
             typer.echo(f"error: {exc}", err=True)
             raise typer.Exit(exc.exit_code) from None
+        except KeyboardInterrupt:
+            resume = RESUMABLE.get(command.__name__, "")
+            typer.echo(f"interrupted: outputs are written whole or not at all, so no file is torn{resume}", err=True)
+            raise typer.Exit(INTERRUPTED) from None
 
     return wrapper
 
@@ -350,6 +359,10 @@ def _library_summary(summary, folder: Path) -> None:
     say(f"{len(done)} book(s) extracted, {summary.count(SKIPPED)} already done, {len(summary.failed)} failed; "
         f"{sum(r.sentences for r in done)} sentence(s), {sum(r.events for r in done)} event(s), "
         f"{words} word(s) in {summary.seconds:.1f} s ({words / max(summary.seconds, 1e-9):,.0f} words/s); written to {folder}/")
+    for result in done:
+        if not result.sentences and not result.resumed and not result.skipped:
+            say(f"warning: {result.book.source} holds no sentences (empty or blank lines only), so "
+                f"{result.book.target} is empty")
 
 
 FoldsOption = Annotated[Optional[int], typer.Option("--folds", "-k", help="Number of grouped folds (default: the config's).")]
@@ -440,7 +453,7 @@ def score(
     gold: Annotated[Path, typer.Argument(help="Gold annotations (canonical JSONL).")],
     predictions: Annotated[Path, typer.Argument(help="Any system's predictions in the canonical JSONL format.")],
     mode: Annotated[str, typer.Option(help="exact or overlap.")] = DEFAULT_MODE,
-    roles: RolesOption = None,
+    roles: Annotated[Optional[str], typer.Option("--roles", help="Score only these roles, comma-separated; spans of other roles are left out of both files and counted (default: mover,source,path,destination, and another role is an error).")] = None,
     seed: Annotated[int, typer.Option(help="Bootstrap seed.")] = DEFAULT_SEED,
     bootstrap: Annotated[int, typer.Option(help="Bootstrap samples per interval.")] = DEFAULT_BOOTSTRAP_SAMPLES,
     output: Annotated[Optional[Path], typer.Option("--output", "-o", help="Also write score.json into this folder.")] = None,
@@ -454,7 +467,10 @@ def score(
 
     settings = scoring_settings(Overrides(mode=mode, seed=seed, bootstrap_samples=bootstrap))
     report = score_report(gold, predictions, roles=_roles(roles), settings=settings, folder=output,
-                          allow_missing=allow_missing)
+                          allow_missing=allow_missing, subset=roles is not None)
+    for side, counts in report["left_out_roles"].items():
+        if counts:
+            say(f"left out of the {side} (not in --roles): " + ", ".join(f"{n} {r}" for r, n in counts.items()))
     typer.echo(score_markdown(report))
 
 
@@ -561,6 +577,11 @@ def suggest(
 
     outcome = suggest_to_file(model, unlabeled, output, count=n, measure=measure, diversity=diversity)
     say(f"{outcome.suggested} of {outcome.candidates} unannotated record(s) suggested, pre-annotated, written to {output}")
+    if outcome.suggested < min(outcome.asked, outcome.candidates):
+        from trainer.annotation.suggest import NEAR_DUPLICATE_JACCARD
+
+        say(f"note: {outcome.asked} asked for; the others are near duplicates of records already chosen (the same "
+            f"words, or at least {NEAR_DUPLICATE_JACCARD:.0%} of their words shared), which a batch never holds twice")
 
 
 @app.command()

@@ -156,6 +156,17 @@ def test_convert_file_jsonl_to_table_and_back(tmp_path: Path) -> None:
     assert_same(FORMATS["jsonl"].reader(tmp_path / "back.jsonl").records, sample_records())
 
 
+def test_a_csv_cut_by_semicolons_is_refused_with_how_to_save_it(tmp_path: Path) -> None:
+    # Spreadsheets in locales with a decimal comma save "CSV" with semicolons (common practice).
+    write_table(sample_records(), tmp_path / "sample.csv")
+    semicolons = tmp_path / "semi.csv"
+    semicolons.write_text((tmp_path / "sample.csv").read_text(encoding="utf-8").replace(",", ";"), encoding="utf-8")
+    with pytest.raises(CorpusError) as caught:
+        read_table(semicolons)
+    assert caught.value.cause == f"{semicolons}: its header row is cut by semicolons, but a .csv table is cut by commas"
+    assert "as tab-separated .tsv" in caught.value.fix
+
+
 @pytest.mark.parametrize("suffix", [".csv", ".tsv"])
 def test_an_empty_table_file_is_refused_naming_the_header(tmp_path: Path, suffix: str) -> None:
     path = tmp_path / f"empty{suffix}"

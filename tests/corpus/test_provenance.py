@@ -76,3 +76,12 @@ def test_training_refuses_unreviewed_predictions():
     assert [r.id for r in usable] == ["plain", "negative", "fixed"]
     assert refused == ["unchecked", "unchecked-negative", "typo"]
     assert usable[0] is records[0]
+
+
+def test_training_takes_a_suggested_record_whose_events_were_edited_as_reviewed():
+    # docs/retraining.md: editing a record marks it reviewed by itself, whatever its provenance still says.
+    edited = returned([LEFT_WITH_SOURCE], "predicted")
+    untouched = returned([LEFT], "predicted")
+    assert resolve_provenance(edited) == "corrected" and resolve_provenance(untouched) == "predicted"
+    usable, refused = training_records([edited, untouched])
+    assert [r.events for r in usable] == [edited.events] and refused == [untouched.id]

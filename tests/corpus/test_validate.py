@@ -185,3 +185,15 @@ def test_the_example_record_of_the_annotation_spec_is_valid_and_its_offsets_cove
     words = [(text[slice(*e["trigger"])], [(r["role"], text[slice(*r["span"])]) for r in e["roles"]]) for e in example["events"]]
     assert words == [("quit", [("mover", "the drovers"), ("source", "Ostley")]),
                      ("pushed", [("mover", "the drovers"), ("path", "the Cairn Moor"), ("destination", "the ferry")])]
+
+
+def test_a_file_of_another_format_is_sent_to_convert_not_listed_line_by_line(tmp_path):
+    table = tmp_path / "batch.tsv"
+    table.write_text("id\tdoc\tstatus\nx\td\tnegative\n", encoding="utf-8")
+    with pytest.raises(UnreadableInputError) as raised:
+        check_files([table])
+    assert raised.value.cause == f"{table}: not canonical JSONL (its first record line is not a JSON object)"
+    assert raised.value.fix.startswith(f"convert it first: `itinerant convert {table} -o batch.jsonl`")
+    named = tmp_path / "records.txt"  # JSON lines under another extension are read as they are
+    named.write_text(json.dumps({"id": "a", "doc": "d", "text": "We rode on.", "events": []}) + "\n", encoding="utf-8")
+    assert [r.id for _, _, r in check_files([named]).records] == ["a"]

@@ -33,3 +33,27 @@ def test_a_plain_text_file_that_is_not_utf8_is_refused_with_its_first_bad_byte(r
         suggest_to_file(rules_model_file, source, out, count=3)
     assert raised.value.cause == f"{source}: not UTF-8 text: line 2, byte offset 24 (0xfc)"  # 12 bytes on line 1, then "We went to F"
     assert not out.exists()
+
+
+def test_fewer_suggestions_than_asked_say_why(nlp, demo_train, tmp_path):
+    from typer.testing import CliRunner
+
+    from trainer.cli import app
+    from trainer.config import config_from_dict
+    from trainer.corpus.reader import read_corpus
+    from trainer.models.training import fit_extractor, save_extractor
+
+    config = config_from_dict({"parser": {"use_cache": False}, "trigger_model": {"kind": "crf", "iterations": 10},
+                               "role_model": {"kind": "crf", "iterations": 10}})
+    records = read_corpus([demo_train / "quarne-salt-1.jsonl"]).records
+    model = tmp_path / "crf.itin"
+    save_extractor(fit_extractor(records, config, nlp=nlp), model, records=records, training_seconds=0.0)
+    pool = tmp_path / "pool.jsonl"
+    texts = ["We left Caddow at dawn."] * 3 + ["We left Caddow at dawn again."] * 3  # word-set Jaccard 5/6 >= 0.8
+    pool.write_text("".join(f'{{"id": "u{i}", "doc": "d", "text": "{t}"}}\n' for i, t in enumerate(texts)),
+                    encoding="utf-8")
+    result = CliRunner().invoke(app, ["suggest", str(model), str(pool), "-o", str(tmp_path / "b.jsonl"), "-n", "5"])
+    assert result.exit_code == 0, result.output
+    assert "1 of 6 unannotated record(s) suggested" in result.output
+    assert "note: 5 asked for; the others are near duplicates of records already chosen" in result.output
+    assert "at least 80% of their words shared" in result.output

@@ -59,6 +59,30 @@ def test_books_are_found_in_path_order_and_named_after_their_files(tmp_path):
         find_books([library, tmp_path / "other"], tmp_path / "out")
 
 
+def test_upper_case_suffixes_are_books_too_and_an_output_inside_the_books_is_refused(rules_model_file, tmp_path):
+    library = tmp_path / "lib"
+    library.mkdir()
+    (library / "SHOUT.TXT").write_text("We left Caddow at dawn.\n", encoding="utf-8")
+    (library / "Letters.JSONL").write_bytes(LETTERS.read_bytes())
+    assert [(b.source.name, b.input_format) for b in find_books([library], tmp_path / "out")] == [
+        ("Letters.JSONL", "jsonl"), ("SHOUT.TXT", "text")]
+    with pytest.raises(OutputError, match="the output folder lies inside the input folder"):
+        extract_library(rules_model_file, [library], library / "out")
+    assert sorted(p.name for p in library.iterdir()) == ["Letters.JSONL", "SHOUT.TXT"]
+
+
+def test_an_empty_book_of_a_library_is_named_in_a_warning(rules_model_file, tmp_path):
+    library = tmp_path / "lib"
+    library.mkdir()
+    (library / "empty.txt").write_text("\n\n", encoding="utf-8")
+    (library / "full.txt").write_text("We left Caddow at dawn.\n", encoding="utf-8")
+    result = runner.invoke(app, ["extract", str(rules_model_file), str(library), "-o", str(tmp_path / "out"),
+                                 "--no-progress"])
+    assert result.exit_code == 0, result.output
+    assert f"warning: {library / 'empty.txt'} holds no sentences" in result.output
+    assert "full.txt holds" not in result.output
+
+
 @pytest.mark.parametrize("inputs, output, library", [
     (["book.txt"], "out.jsonl", False),   # today's single extraction
     (["book.txt", "b2.txt"], "out", True),
@@ -140,6 +164,57 @@ def test_a_library_run_killed_midway_resumes_to_the_same_files(rules_model_file,
     assert summary.results[1].resumed > 0
     assert files(killed) == files(tmp_path / "whole")
     assert not torn.exists()
+
+
+def _wait_for_a_started_book(folder: Path, process: subprocess.Popen | None = None) -> None:
+    deadline = time.monotonic() + 300
+    while not any(resume_point(p, plain_text=True).records > 0 for p in folder.glob("*.partial")):
+        assert time.monotonic() < deadline and (process is None or process.poll() is None), "no book was started"
+        time.sleep(0.02)
+
+
+@pytest.mark.slow
+def test_a_worker_that_dies_fails_its_books_not_the_run(rules_model_file, tmp_path):
+    """A worker killed mid-book (as by the kernel's out-of-memory killer): its books are reported failed, the
+    run returns its summary, and --resume then gives the files of an uninterrupted run."""
+    import multiprocessing
+    import threading
+
+    from trainer.models.library import FAILED, LOST_WORKER
+
+    library = make_library(tmp_path / "lib", books=2)
+    extract_library(rules_model_file, [library], tmp_path / "whole", batch_size=4)
+    out = tmp_path / "out"
+
+    def kill_workers() -> None:
+        _wait_for_a_started_book(out)
+        for child in multiprocessing.active_children():
+            os.kill(child.pid, signal.SIGKILL)
+
+    killer = threading.Thread(target=kill_workers)
+    killer.start()
+    summary = extract_library(rules_model_file, [library], out, jobs=2, batch_size=4)
+    killer.join()
+    lost = [r for r in summary.results if r.status == FAILED]
+    assert lost and all(r.error == f"{r.book.source}: {LOST_WORKER}" for r in lost)
+    extract_library(rules_model_file, [library], out, resume=True, batch_size=4)
+    assert files(out) == files(tmp_path / "whole")
+
+
+@pytest.mark.slow
+def test_ctrl_c_stops_a_parallel_library_run_with_a_message_and_no_traceback(rules_model_file, tmp_path):
+    library = make_library(tmp_path / "lib", books=2)
+    out = tmp_path / "out"
+    command = [sys.executable, "-m", "trainer.cli", "extract", str(rules_model_file), str(library), "-o", str(out),
+               "--batch-size", "4", "--no-progress", "--jobs", "2"]
+    process = subprocess.Popen(command, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True,
+                               start_new_session=True)
+    _wait_for_a_started_book(out, process)
+    os.killpg(process.pid, signal.SIGINT)  # as a terminal's Ctrl+C: the whole process group
+    _, errors = process.communicate(timeout=120)
+    assert process.returncode == 130, errors
+    assert "interrupted: outputs are written whole or not at all" in errors and "--resume" in errors
+    assert "Traceback" not in errors
 
 
 def test_a_library_is_written_to_a_folder(tmp_path):

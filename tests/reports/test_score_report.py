@@ -132,3 +132,17 @@ def test_predictions_with_confidences_list_their_calibration_and_thresholds(tmp_
     text = score_markdown(report)
     assert "Expected calibration error of held-out confidences (instances): trigger " in text
     assert "F1-optimal confidence thresholds on held-out predictions: trigger " in text
+
+
+def test_roles_given_as_a_subset_are_scored_and_the_others_left_out_and_counted(files) -> None:
+    gold, pred = files
+    full = score_report(gold, pred, roles=ROLES, settings=SETTINGS, allow_missing=True)
+    with pytest.raises(CorpusError, match="unknown role"):  # without subset the roles are the files' inventory
+        score_report(gold, pred, roles=("mover", "destination"), settings=SETTINGS, allow_missing=True)
+    part = score_report(gold, pred, roles=("mover", "destination"), settings=SETTINGS, allow_missing=True, subset=True)
+    assert list(part["scores"]["roles"]) == ["mover", "destination"]
+    for role in ("mover", "destination"):
+        assert part["scores"]["roles"][role] == full["scores"]["roles"][role]
+    assert part["left_out_roles"]["gold"] == {r: full["scores"]["roles"][r]["gold"] for r in ("path", "source")
+                                              if full["scores"]["roles"][r]["gold"]}
+    assert part["scores"]["trigger"] == full["scores"]["trigger"]

@@ -101,8 +101,10 @@ def training_records(records: Sequence[Record]) -> tuple[list[Record], list[str]
     """The records a model may be trained on, and the ids refused because they are still ``predicted``.
 
     Usable: annotated records (``events`` present, negatives included) whose
-    provenance is not ``predicted``; records without provenance count as gold.
-    Refused: annotated records still marked ``predicted`` (a pre-annotation
+    provenance (:func:`resolve_provenance`) is not ``predicted``: records without
+    provenance count as gold, and a suggested record whose events differ from
+    the prediction is ``corrected`` whatever it states (editing marks it reviewed).
+    Refused: annotated records still ``predicted`` (a pre-annotation
     nobody checked, which must not become training data silently) or marked
     with a value that is not a provenance (an unknown state is not a checked
     one). Unannotated
@@ -120,7 +122,8 @@ def training_records(records: Sequence[Record]) -> tuple[list[Record], list[str]
     for record in records:
         if not record.is_annotated:
             continue
-        if provenance_of(record) not in (None, *REVIEWED):
+        stated = provenance_of(record)
+        if (stated is not None and stated not in PROVENANCES) or resolve_provenance(record) == PREDICTED:
             refused.append(record.id)
         else:
             usable.append(record)

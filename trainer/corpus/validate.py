@@ -14,7 +14,7 @@ from typing import Any, Iterable
 
 from trainer.corpus.jsonl import iter_lines, record_from_dict, record_to_dict
 from trainer.corpus.records import DEFAULT_ROLES, Record
-from trainer.errors import StrictJSONError
+from trainer.errors import StrictJSONError, UnreadableInputError
 
 ERROR = "error"
 WARNING = "warning"
@@ -350,6 +350,10 @@ def check_files(paths: Iterable[Path], roles: tuple[str, ...] | None = DEFAULT_R
     for path in paths:
         empty = True
         for number, line in iter_lines(Path(path)):
+            if empty and Path(path).suffix.lower() != ".jsonl" and not line.lstrip().startswith("{"):
+                raise UnreadableInputError(f"{path}: not canonical JSONL (its first record line is not a JSON object)",
+                                           f"convert it first: `itinerant convert {path} -o {Path(path).stem}.jsonl` "
+                                           "reads tables, columns, inline markup and ISO-Space XML")
             empty = False
             one = check_line(str(path), number, line, roles, first_seen)
             result.records.extend(one.records)

@@ -55,7 +55,8 @@ class ExtractOutcome:
     skipped: list[Any] = field(default_factory=list)
 
 
-def extract(model: Path, sources: Sequence[Path], output: Path, options: ExtractOptions = ExtractOptions(), *,
+def extract(model: Path | str, sources: Sequence[Path | str], output: Path | str,
+            options: ExtractOptions = ExtractOptions(), *,
             on_progress: Callable[[int, float], None] | None = None,
             on_book: Callable[..., None] | None = None) -> ExtractOutcome:
     """Apply a model file to one input file (``output`` a file) or to a library of books (``output`` a folder).
@@ -69,6 +70,7 @@ def extract(model: Path, sources: Sequence[Path], output: Path, options: Extract
     from trainer.models.library import extract_library, names_a_library
 
     check_options(options)
+    model, sources, output = Path(model), [Path(s) for s in sources], Path(output)
     if names_a_library(sources, output):
         if options.doc or options.compare:
             raise ConfigError("--doc and --compare work on one input file, not a library",
@@ -88,7 +90,7 @@ def _extract_book(model: Path, source: Path, output: Path, options: ExtractOptio
     from trainer.models.training import load_extractor
     from trainer.outputs import check_output
 
-    fmt = options.input_format or ("jsonl" if source.suffix == ".jsonl" else "text")
+    fmt = options.input_format or ("jsonl" if source.suffix.lower() == ".jsonl" else "text")
     if options.compare and fmt != "jsonl":
         raise ConfigError("--compare needs JSONL input whose records carry events", "drop --compare for plain text")
     check_source(source)

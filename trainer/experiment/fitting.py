@@ -43,7 +43,8 @@ class FitOutcome:
     boundaries_only: bool = False  # every departure is of span boundaries (none of which spans are triggers or roles)
 
 
-def fit_model(corpus: Sequence[Path], output: Path, settings: RunSettings, *, skip_bad: bool = False, jobs: int = 1,
+def fit_model(corpus: Sequence[Path | str], output: Path | str, settings: RunSettings, *, skip_bad: bool = False,
+              jobs: int = 1,
               progress: Progress | None = None) -> FitOutcome:
     """Train the first config of ``settings`` on the annotated records and write a model file (a pickle) with its digest.
 
@@ -57,6 +58,7 @@ def fit_model(corpus: Sequence[Path], output: Path, settings: RunSettings, *, sk
     from trainer.models.training import fit_extractor, save_extractor
 
     check_jobs(jobs)
+    corpus, output = [Path(p) for p in corpus], Path(output)
     config = settings.configs[0]
     say = progress or (lambda message: None)
     auxiliary = local_paths(config.auxiliary.corpora)

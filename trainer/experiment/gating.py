@@ -31,6 +31,12 @@ class GateRequest:
     allow_mismatch: bool = False
     accept: bool = False
 
+    def __post_init__(self) -> None:  # paths may be given as strings from Python
+        for name in ("report", "baseline", "config", "junit"):
+            value = getattr(self, name)
+            if value is not None:
+                object.__setattr__(self, name, Path(value))
+
 
 @dataclass
 class GateOutcome:

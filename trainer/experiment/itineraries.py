@@ -24,8 +24,8 @@ class ItineraryOutcome:
     skipped_note: str = ""  # one line per record left out, for the user
 
 
-def itinerary_files(records: Sequence[Path], output: Path, *, movers: Sequence[str] | None = None,
-                    carry_mover: bool = False, gazetteer: Path | None = None, geojson: Path | None = None,
+def itinerary_files(records: Sequence[Path | str], output: Path | str, *, movers: Sequence[str] | None = None,
+                    carry_mover: bool = False, gazetteer: Path | str | None = None, geojson: Path | str | None = None,
                     skip_bad: bool = False, min_confidence: float | None = None) -> ItineraryOutcome:
     """Write the itinerary table of the records' events and, with a gazetteer, the route as GeoJSON.
 
@@ -33,6 +33,8 @@ def itinerary_files(records: Sequence[Path], output: Path, *, movers: Sequence[s
     before anything is written.
     """
     check_min_confidence(min_confidence)
+    records, output = [Path(p) for p in records], Path(output)
+    gazetteer, geojson = (Path(gazetteer) if gazetteer else None), (Path(geojson) if geojson else None)
     if bool(gazetteer) != bool(geojson):
         raise ConfigError("--gazetteer and --geojson go together", "give both to write a map, or neither")
     inputs = [*records, *expand_paths(records), *([gazetteer] if gazetteer else [])]

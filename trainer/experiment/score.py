@@ -12,6 +12,7 @@ from pathlib import Path
 from typing import Any, Sequence
 
 from trainer.config import DEFAULT_SEED, DEFAULT_TRIALS, SCORING_MODES
+from trainer.corpus.auxiliary import within_inventory
 from trainer.corpus.reader import fingerprint, read_corpus
 from trainer.corpus.records import Record
 from trainer.errors import ConfigError, CorpusError, UnreadableInputError
@@ -27,11 +28,13 @@ from trainer.reports.folder import REPORT_JSON
 from trainer.reports.json_report import dump_json, library_versions
 
 
-def gold_records(gold_path: Path, *, roles: Sequence[str], skip_bad: bool = False,
+def gold_records(gold_path: Path, *, roles: Sequence[str] | None, skip_bad: bool = False,
                  skippable: bool = False) -> list[Record]:
-    """The records of a gold file, refused when none is annotated (``skip_bad``: bad records left out;
-    ``skippable``: the command offers ``--skip-bad``, so an error about a bad record may suggest it)."""
-    gold = read_corpus([gold_path], roles=tuple(roles), skip_bad=skip_bad, skippable=skippable).records
+    """The records of a gold file, refused when none is annotated (``roles``: the inventory, None for any role
+    name; ``skip_bad``: bad records left out; ``skippable``: the command offers ``--skip-bad``, so an error
+    about a bad record may suggest it)."""
+    gold = read_corpus([gold_path], roles=None if roles is None else tuple(roles), skip_bad=skip_bad,
+                       skippable=skippable).records
     if not any(record.is_annotated for record in gold):
         held = f"its {len(gold)} record(s) are all unannotated (no `events` key)" if gold else "it holds no records"
         raise CorpusError(f"{gold_path}: no annotated gold records to score against: {held}",
@@ -39,18 +42,26 @@ def gold_records(gold_path: Path, *, roles: Sequence[str], skip_bad: bool = Fals
     return gold
 
 
-def score_report(gold_path: Path, pred_path: Path, *, roles: Sequence[str], settings: EvaluationSettings,
-                 folder: Path | None = None, allow_missing: bool = False, skip_bad: bool = False) -> dict[str, Any]:
+def score_report(gold_path: Path | str, pred_path: Path | str, *, roles: Sequence[str], settings: EvaluationSettings,
+                 folder: Path | str | None = None, allow_missing: bool = False, skip_bad: bool = False,
+                 subset: bool = False) -> dict[str, Any]:
     """Score any system's predictions (canonical JSONL) against gold with the same scorer as cross-validation.
 
     Annotated gold records with no predicted record are refused, naming them,
     unless ``allow_missing``: then they count as misses and the report lists them.
     ``skip_bad`` leaves out gold records with errors (as an extraction with ``--skip-bad`` did).
+    ``roles`` is the inventory both files must keep to; with ``subset`` it is the roles scored instead, and
+    role spans of other roles are left out of both files and counted (``left_out_roles``).
     """
+    gold_path, pred_path, folder = Path(gold_path), Path(pred_path), Path(folder) if folder is not None else None
     if folder is not None:
         check_output(folder, inputs=[gold_path, pred_path], folder=True, what="score folder")
-    gold = gold_records(gold_path, roles=roles, skip_bad=skip_bad)
-    predicted = read_corpus([pred_path], roles=tuple(roles), skippable=False).records
+    gold = gold_records(gold_path, roles=None if subset else roles, skip_bad=skip_bad)
+    predicted = read_corpus([pred_path], roles=None if subset else tuple(roles), skippable=False).records
+    left_out: dict[str, dict[str, int]] = {}
+    if subset:
+        gold, left_out["gold"] = within_inventory(gold, roles)
+        predicted, left_out["predictions"] = within_inventory(predicted, roles)
     missing = missing_predictions(gold, predicted)
     if missing and not allow_missing:
         named = ", ".join(repr(i) for i in missing[:5]) + (f" and {len(missing) - 5} more" if len(missing) > 5 else "")
@@ -68,6 +79,7 @@ def score_report(gold_path: Path, pred_path: Path, *, roles: Sequence[str], sett
         "gold": {"file": str(gold_path), "fingerprint": fingerprint(gold), "records": len(gold)},
         "predictions": {"file": str(pred_path), "records": len(predicted)},
         "missing_predictions": {"count": len(missing), "ids": missing},
+        "left_out_roles": left_out,
         "settings": settings.to_dict(),
         "versions": library_versions(),
         "scores": scores.to_dict(),
@@ -100,9 +112,10 @@ def _saved_run(folder: Path) -> dict[str, Any]:
     return data
 
 
-def contrast_runs(folder_a: Path, folder_b: Path, *, system_a: str | None = None, system_b: str | None = None,
+def contrast_runs(folder_a: Path | str, folder_b: Path | str, *, system_a: str | None = None, system_b: str | None = None,
                   trials: int = DEFAULT_TRIALS, seed: int = DEFAULT_SEED) -> dict[str, Any]:
     """A paired test between one config of each of two saved runs, on their saved held-out predictions."""
+    folder_a, folder_b = Path(folder_a), Path(folder_b)
     report_a, report_b = _saved_run(folder_a), _saved_run(folder_b)
     if report_a["corpus"]["fingerprint"] != report_b["corpus"]["fingerprint"]:
         raise CorpusError("the two runs were made on different corpora (fingerprints differ)",

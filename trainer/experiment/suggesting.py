@@ -16,9 +16,10 @@ class SuggestOutcome:
     output: Path
     suggested: int
     candidates: int
+    asked: int = 0  # the count asked for; fewer come back when the candidates, near duplicates left out, run out
 
 
-def suggest_to_file(model: Path, unlabeled: Path, output: Path, *, count: int = 50,
+def suggest_to_file(model: Path | str, unlabeled: Path | str, output: Path | str, *, count: int = 50,
                     measure: str = "least_confidence", diversity: float = 0.5) -> SuggestOutcome:
     """Read unannotated sentences (JSONL records without events, or plain text), pick ``count`` of them by the
     model's uncertainty spread over docs and trigger lemmas, and write them pre-annotated as canonical JSONL."""
@@ -29,13 +30,14 @@ def suggest_to_file(model: Path, unlabeled: Path, output: Path, *, count: int = 
     from trainer.models.training import load_extractor, parser_for
     from trainer.parsing.text import iter_paragraphs, sentence_records
 
+    model, unlabeled, output = Path(model), Path(unlabeled), Path(output)
     check_output(output, inputs=[model, digest_path(model), unlabeled], what="batch file")
     if not unlabeled.is_file():
         raise UnreadableInputError(f"{unlabeled}: {'is a folder, not a file' if unlabeled.is_dir() else 'no such file'}",
                                    "name a .jsonl or .txt file of unannotated sentences")
     trained, _ = load_extractor(model)
     nlp = parser_for(trained.config)
-    if unlabeled.suffix == ".jsonl":
+    if unlabeled.suffix.lower() == ".jsonl":
         read = read_corpus([unlabeled], roles=trained.roles, skippable=False).records
         records = [r for r in read if not r.is_annotated]
         docs = None
@@ -58,4 +60,4 @@ def suggest_to_file(model: Path, unlabeled: Path, output: Path, *, count: int = 
     batch = suggest_batch(trained, records, count, measure=measure, diversity=diversity, nlp=nlp, docs=docs,
                           model_name=f"{model.name} sha256:{digest}")
     write_jsonl(batch, output)
-    return SuggestOutcome(output, len(batch), len(records))
+    return SuggestOutcome(output, len(batch), len(records), count)

@@ -19,8 +19,10 @@ from __future__ import annotations
 
 import json
 import os
+import signal
 import time
 from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
+from concurrent.futures.process import BrokenProcessPool
 from dataclasses import dataclass, field
 from multiprocessing import get_context
 from pathlib import Path
@@ -94,7 +96,7 @@ def find_books(inputs: Sequence[Path], folder: Path, *, input_format: str | None
     sources: list[Path] = []
     for path in map(Path, inputs):
         if path.is_dir():
-            sources.extend(sorted(p for p in path.rglob("*") if p.is_file() and p.suffix in BOOK_SUFFIXES
+            sources.extend(sorted(p for p in path.rglob("*") if p.is_file() and p.suffix.lower() in BOOK_SUFFIXES
                                   and not p.name.startswith(".")))
         elif path.is_file():
             sources.append(path)
@@ -105,7 +107,7 @@ def find_books(inputs: Sequence[Path], folder: Path, *, input_format: str | None
                                    "name book files or folders holding them")
     books: dict[str, Book] = {}
     for source in sources:
-        fmt = input_format or BOOK_SUFFIXES.get(source.suffix, "text")
+        fmt = input_format or BOOK_SUFFIXES.get(source.suffix.lower(), "text")
         book = Book(source, folder / f"{source.stem}.jsonl", fmt)
         if book.target.name in books and not _same(books[book.target.name].source, source):
             raise ConfigError(f"{books[book.target.name].source} and {source} would both be written to {book.target}",
@@ -200,14 +202,37 @@ def single_threaded() -> None:
     threadpool_limits(limits=1)
 
 
+def _worker_start() -> None:
+    """A local worker: one thread for native code, and Ctrl+C left to the parent, which stops the workers itself
+    (a worker of its own would print a traceback of the interruption)."""
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+    single_threaded()
+
+
+LOST_WORKER = ("the worker process extracting it ended abruptly (killed, or out of memory?); its partial output "
+               "is kept: rerun with --resume to finish it")
+
+
 def _processes(model_path: str, books: Sequence[Book], options: dict[str, Any], jobs: int) -> Iterator[BookResult]:
+    """Books extracted in ``jobs`` local worker processes; a worker that dies fails the books it had, not the run."""
     # spawn, not fork: the parent may run a progress thread, and each worker loads its own parser anyway
-    with ProcessPoolExecutor(max_workers=jobs, mp_context=get_context("spawn"), initializer=single_threaded) as pool:
-        pending = {pool.submit(extract_book, model_path, book, **options) for book in books}
+    pool = ProcessPoolExecutor(max_workers=jobs, mp_context=get_context("spawn"), initializer=_worker_start)
+    try:
+        pending = {pool.submit(extract_book, model_path, book, **options): book for book in books}
         while pending:
-            done, pending = wait(pending, return_when=FIRST_COMPLETED)
+            done, _ = wait(pending, return_when=FIRST_COMPLETED)
             for future in done:
-                yield future.result()
+                book = pending.pop(future)
+                try:
+                    yield future.result()
+                except BrokenProcessPool:
+                    yield BookResult(book, FAILED, error=f"{book.source}: {LOST_WORKER}")
+    except BaseException:  # Ctrl+C or a closed generator: stop the workers now, not after their books
+        for process in list((getattr(pool, "_processes", None) or {}).values()):  # no public way before Python 3.14
+            process.terminate()
+        pool.shutdown(wait=True, cancel_futures=True)
+        raise
+    pool.shutdown(wait=True)
 
 
 def _cluster(model_path: str, books: Sequence[Book], options: dict[str, Any], scheduler: str) -> Iterator[BookResult]:
@@ -249,6 +274,11 @@ def extract_library(
         raise OutputError(f"{folder}: a library is written to a folder, one file per book, but this names a file",
                           "name a folder for -o (e.g. -o extracted), or give one input file")
     check_output(folder, inputs=[model_path, *inputs], folder=True, what="output folder")
+    for source in map(Path, inputs):
+        if source.is_dir() and source.resolve() in (folder.resolve(), *folder.resolve().parents):
+            raise OutputError(f"{folder}: the output folder lies inside the input folder {source}, which is searched "
+                              "for books at any depth, so a later run would read the outputs as books",
+                              "write the library to a folder outside the books' folder")
     books = find_books(inputs, folder, input_format=input_format)
     meta, _ = read_metadata(model_path)  # checked against its digest here, before any worker starts
     if meta.get("kind") != "itinerant-extractor" or not meta.get("roles"):

@@ -178,8 +178,15 @@ class _TableReader:
         return [row for row in rows if row["id"]]
 
     def load(self) -> pd.DataFrame:
+        separator = table_separator(self.path)
         try:
-            return pd.read_csv(self.path, sep=table_separator(self.path), dtype=str, keep_default_na=False,
+            with open(self.path, encoding="utf-8-sig", newline="") as handle:
+                header = handle.readline()
+            if separator == "," and ";" in header and "," not in header:
+                raise CorpusError(f"{self.path}: its header row is cut by semicolons, but a .csv table is cut by commas",
+                                  "save the sheet as CSV with commas (spreadsheets set to a decimal comma use "
+                                  "semicolons), or as tab-separated .tsv")
+            return pd.read_csv(self.path, sep=separator, dtype=str, keep_default_na=False,
                                skip_blank_lines=False, encoding="utf-8-sig")
         except FileNotFoundError:
             raise UnreadableInputError(f"{self.path}: no such file", "check the path") from None
