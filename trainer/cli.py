@@ -347,7 +347,12 @@ def _book_summary(book, source: Path, output: Path) -> None:
     resumed = f" (after {book.resumed} kept from the earlier run)" if book.resumed else ""
     say(f"{book.sentences} sentence(s){resumed}, {book.events} event(s), {book.roles} role(s) written to {output}")
     if not book.sentences and not book.skipped:
-        say(f"warning: {source} holds no sentences (empty or blank lines only), so {output} is empty")
+        _empty_book(source, output)
+
+
+def _empty_book(source: Path, output: Path) -> None:
+    """Warn that a book gave an empty output (one book or one of a library)."""
+    say(f"warning: {source} holds no sentences (empty or blank lines only), so {output} is empty")
 
 
 def _library_summary(summary, folder: Path) -> None:
@@ -361,8 +366,7 @@ def _library_summary(summary, folder: Path) -> None:
         f"{words} word(s) in {summary.seconds:.1f} s ({words / max(summary.seconds, 1e-9):,.0f} words/s); written to {folder}/")
     for result in done:
         if not result.sentences and not result.resumed and not result.skipped:
-            say(f"warning: {result.book.source} holds no sentences (empty or blank lines only), so "
-                f"{result.book.target} is empty")
+            _empty_book(result.book.source, result.book.target)
 
 
 FoldsOption = Annotated[Optional[int], typer.Option("--folds", "-k", help="Number of grouped folds (default: the config's).")]

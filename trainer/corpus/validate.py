@@ -178,16 +178,19 @@ class _LineChecker:
         def words(span: tuple[int, int]) -> str:
             return repr(text[span[0]:span[1]])
 
+        def meet(a: tuple[int, int], b: tuple[int, int]) -> bool:
+            return a[0] < b[1] and b[0] < a[1]
+
         for i, role in enumerate(roles):
             if not role:
                 continue
             name, span = role
-            if trigger and span[0] < trigger[1] and trigger[0] < span[1]:
+            if trigger and meet(span, trigger):
                 self.add(f"{where}.roles[{i}].span", f"the {name} {words(span)} overlaps the trigger {words(trigger)}",
                          "mark the trigger word and each role's own words apart", WARNING)
             for j in range(i + 1, len(roles)):
                 other = roles[j]
-                if not other or not (span[0] < other[1][1] and other[1][0] < span[1]):
+                if not other or not meet(span, other[1]):
                     continue
                 if span == other[1] and {name, other[0]} & {"mover"} and {name, other[0]} & set(PLACE_ROLES):
                     continue  # said by mover_is_place
