@@ -11,8 +11,10 @@ import pytest
 
 from trainer.errors import ConfigError
 from trainer.features.lexicons import (
+    HEADING_CLASS,
     MOTION_CLASSES,
     PREPOSITION_ROLES,
+    VERB_CLASSES,
     Lexicons,
     load_lexicons,
 )
@@ -74,7 +76,7 @@ def test_defaults_are_equal_across_calls_and_not_shared() -> None:
     assert first.motion_verbs is not second.motion_verbs
 
 
-@pytest.mark.parametrize("cls", MOTION_CLASSES)
+@pytest.mark.parametrize("cls", VERB_CLASSES)
 def test_every_verb_class_is_used(cls: str) -> None:
     assert cls in load_lexicons().motion_verbs.values()
 
@@ -141,7 +143,7 @@ def test_a_header_only_file_gives_an_empty_lexicon(tmp_path: Path) -> None:
     [
         ("lemma\tclass\nwalk\tmanner\nride manner\n", 3,
          "expected lemma<TAB>class with class one of departure, arrival, traversal, manner, return, "
-         "ascent_descent, vehicle, caused, general, found 'ride manner'"),
+         "ascent_descent, vehicle, caused, general, heading, found 'ride manner'"),
         ("lemma\tclass\nwalk\tmanner\textra\n", 2, "expected lemma<TAB>class"),
         ("lemma\tclass\n\twalk\n", 2, "expected lemma<TAB>class"),
         ("# c\nlemma\tclass\nwalk\tstroll\n", 3,
@@ -305,3 +307,99 @@ def test_motion_reading_mends_the_parsers_lemma_errors_from_the_word_as_written(
     ship = make_doc(SAILING_SHIP)
     assert motion_reading(ship[1], lexicons) is None  # a noun modifier, not a gerund
     assert motion_reading(ship[3], lexicons) == ("come in", lexicons.verb_class("come in"))
+
+
+# 'We then turned Northward.': the parser reads the direction word as the verb's object.
+TURNED_NORTHWARD = """
+We         we         PRON   PRP  nsubj   2
+then       then       ADV    RB   advmod  2
+turned     turn       VERB   VBD  ROOT    2
+Northward  Northward  PROPN  NNP  dobj    2
+.          .          PUNCT  .    punct   2
+"""
+# 'We turned towards the plain.'
+TURNED_TOWARDS = """
+We       we       PRON   PRP  nsubj  1
+turned   turn     VERB   VBD  ROOT   1
+towards  towards  ADP    IN   prep   1
+the      the      DET    DT   det    4
+plain    plain    NOUN   NN   pobj   2
+.        .        PUNCT  .    punct  1
+"""
+# 'She stood to the left.'
+STOOD_LEFT = """
+She    she    PRON   PRP  nsubj  1
+stood  stand  VERB   VBD  ROOT   1
+to     to     ADP    IN   prep   1
+the    the    DET    DT   det    4
+left   left   NOUN   NN   pobj   2
+.      .      PUNCT  .    punct  1
+"""
+# 'I turned in early.'
+TURNED_IN = """
+I       I       PRON   PRP  nsubj   1
+turned  turn    VERB   VBD  ROOT    1
+in      in      ADP    RP   prt     1
+early   early   ADV    RB   advmod  1
+.       .       PUNCT  .    punct   1
+"""
+# 'He turned the key to the west.': a turned thing, not a heading.
+TURNED_KEY = """
+He      he      PRON   PRP  nsubj  1
+turned  turn    VERB   VBD  ROOT   1
+the     the     DET    DT   det    3
+key     key     NOUN   NN   dobj   1
+to      to      ADP    IN   prep   1
+the     the     DET    DT   det    6
+west    west    NOUN   NN   pobj   4
+.       .       PUNCT  .    punct  1
+"""
+# 'The canoe was turned keel upward.'
+CANOE_TURNED = """
+The     the     DET    DT   det        1
+canoe   canoe   NOUN   NN   nsubjpass  3
+was     be      AUX    VBD  auxpass    3
+turned  turn    VERB   VBN  ROOT       3
+keel    keel    NOUN   NN   npadvmod   3
+upward  upward  ADV    RB   advmod     3
+.       .       PUNCT  .    punct      3
+"""
+# 'We turned to business.'
+TURNED_TO_BUSINESS = """
+We        we        PRON   PRP  nsubj  1
+turned    turn      VERB   VBD  ROOT   1
+to        to        ADP    IN   prep   1
+business  business  NOUN   NN   pobj   2
+.         .         PUNCT  .    punct  1
+"""
+
+
+@pytest.mark.parametrize(
+    ("table", "verb", "expected"),
+    [
+        (TURNED_NORTHWARD, 2, ("turn", HEADING_CLASS)),
+        (TURNED_TOWARDS, 1, ("turn", HEADING_CLASS)),
+        (STOOD_LEFT, 1, ("stand", HEADING_CLASS)),
+        (TURNED_IN, 1, None),
+        (TURNED_KEY, 1, None),
+        (CANOE_TURNED, 3, None),
+        (TURNED_TO_BUSINESS, 1, None),
+    ],
+)
+def test_a_heading_verb_is_motion_only_with_a_heading(table: str, verb: int, expected: tuple[str, str] | None) -> None:
+    from tests.hand_parsed import make_doc
+
+    from trainer.features.lexicons import motion_reading
+    from trainer.features.rule_cues import rule_triggers
+
+    lexicons = load_lexicons()
+    doc = make_doc(table)
+    assert motion_reading(doc[verb], lexicons) == expected
+    assert [(t.first, t.motion_class) for t in rule_triggers(doc, lexicons)] == ([(verb, HEADING_CLASS)] if expected else [])
+
+
+def test_the_heading_class_is_for_verbs_only(tmp_path: Path) -> None:
+    path = write(tmp_path, "nouns.tsv", "lemma\tclass\nturn\theading\n")
+    with pytest.raises(ConfigError, match="unknown class 'heading' for 'turn'"):
+        load_lexicons(motion_nouns=path)
+

@@ -27,9 +27,10 @@ LETTERS = DEMO / "test" / "lisle-letters-1.jsonl"
 runner = CliRunner()
 
 
-def make_library(folder: Path, *, books: int = 4, bad: bool = False) -> Path:
-    """Text books cut from the demo chapter (whole paragraphs), a JSONL book in a subfolder, optionally bad ones."""
-    parts = [p for _, p in paragraphs(read_text_file(CHAPTER))]
+def make_library(folder: Path, *, books: int = 4, bad: bool = False, copies: int = 1) -> Path:
+    """Text books cut from the demo chapter (whole paragraphs, the chapter ``copies`` times over), a JSONL book in a
+    subfolder, optionally bad ones."""
+    parts = [p for _, p in paragraphs(read_text_file(CHAPTER))] * copies
     folder.mkdir(parents=True)
     size = -(-len(parts) // books)
     for n in range(books):
@@ -203,16 +204,21 @@ def test_a_worker_that_dies_fails_its_books_not_the_run(rules_model_file, tmp_pa
 
 @pytest.mark.slow
 def test_ctrl_c_stops_a_parallel_library_run_with_a_message_and_no_traceback(rules_model_file, tmp_path):
-    library = make_library(tmp_path / "lib", books=2)
+    # long books (about 200,000 words), so that the run is still going when the signal comes, however loaded the
+    # machine; interrupted, the run takes seconds
+    library = make_library(tmp_path / "lib", books=2, copies=50)
     out = tmp_path / "out"
     command = [sys.executable, "-m", "trainer.cli", "extract", str(rules_model_file), str(library), "-o", str(out),
                "--batch-size", "4", "--no-progress", "--jobs", "2"]
+    started = time.monotonic()
     process = subprocess.Popen(command, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True,
                                start_new_session=True)
     _wait_for_a_started_book(out, process)
+    signalled = time.monotonic() - started
     os.killpg(process.pid, signal.SIGINT)  # as a terminal's Ctrl+C: the whole process group
-    _, errors = process.communicate(timeout=120)
-    assert process.returncode == 130, errors
+    _, errors = process.communicate(timeout=300)
+    timing = f"signal sent {signalled:.1f} s after the start, the run ended {time.monotonic() - started:.1f} s after it"
+    assert process.returncode == 130, f"{timing}\n{errors}"
     assert "interrupted: outputs are written whole or not at all" in errors and "--resume" in errors
     assert "Traceback" not in errors
 

@@ -12,8 +12,8 @@ replaced by a file of the same layout (config keys under
 Every file starts with its header line (the column names above); blank lines
 and lines starting with ``#`` are skipped. Entries are lowercased and runs of
 spaces inside a multiword entry are collapsed to one space. Each entry may be
-listed once, and classes and roles must be from :data:`MOTION_CLASSES` and
-:data:`PREPOSITION_ROLES`.
+listed once, and classes and roles must be from :data:`MOTION_CLASSES` (verbs
+also :data:`HEADING_CLASS`) and :data:`PREPOSITION_ROLES`.
 
 >>> lexicons = load_lexicons()
 >>> lexicons.verb_class("Set out"), lexicons.preposition_role("by way of")
@@ -47,6 +47,19 @@ MOTION_CLASSES: tuple[str, ...] = (
 )
 """The classes of motion verbs and nouns (the project's own grouping)."""
 
+HEADING_CLASS = "heading"
+"""A verb class for verbs that are motion only with a heading (``turned northward``, ``struck west``)."""
+
+VERB_CLASSES: tuple[str, ...] = (*MOTION_CLASSES, HEADING_CLASS)
+"""The classes a motion verb may have: :data:`MOTION_CLASSES` and :data:`HEADING_CLASS`."""
+
+_TOWARDS = frozenset({"towards", "toward"})  # its object is a heading whatever it is (``turned towards the plain``)
+_TO = frozenset({"to", "into"})  # a heading only with a direction word or a side (``turning to the West``)
+_SIDES = frozenset({"left", "right"})
+_HEADING_DEPS = frozenset({"advmod", "npadvmod", "prt", "dobj", "acomp", "oprd"})  # how the parser attaches
+# a direction word after a verb (``turned Northward``: dobj)
+_TURNED_THING_DEPS = frozenset({"dobj", "nsubjpass"})  # the verb turns something else (``turned the key``)
+
 PREPOSITION_ROLES: tuple[str, ...] = ("source", "path", "destination")
 """The roles a spatial preposition can cue."""
 
@@ -68,7 +81,7 @@ class _Layout:
 
 
 _LAYOUTS: dict[str, _Layout] = {
-    "motion_verbs": _Layout("motion_verbs.tsv", ("lemma", "class"), MOTION_CLASSES),
+    "motion_verbs": _Layout("motion_verbs.tsv", ("lemma", "class"), VERB_CLASSES),
     "motion_nouns": _Layout("motion_nouns.tsv", ("lemma", "class"), MOTION_CLASSES),
     "prepositions": _Layout("prepositions.tsv", ("preposition", "role"), PREPOSITION_ROLES),
     "directions": _Layout("directions.txt", ("direction",)),
@@ -125,9 +138,10 @@ def motion_reading(token: Token, lexicons: Lexicons) -> tuple[str, str] | None:
     alone, by the parser's lemma and then by WordNet's base form of the word as
     written (:func:`~trainer.features.wordnet.verb_base`), which mends the
     parser's lemma errors: ``riding`` lemmatised as ``rid``, ``came`` left as
-    ``came``. A noun is looked up by its lemma; an ``-ing`` noun that is not
-    listed and does not modify another noun is read as its verb's gerund
-    (``by dint of sailing north``).
+    ``came``. A verb of the ``heading`` class counts only with a heading and
+    no direct object (:func:`has_heading`). A noun is looked up by its lemma;
+    an ``-ing`` noun that is not listed and does not modify another noun is
+    read as its verb's gerund (``by dint of sailing north``).
     """
     pos = token.pos_
     if pos != "NOUN" and pos not in _VERB_POS:
@@ -144,9 +158,37 @@ def motion_reading(token: Token, lexicons: Lexicons) -> tuple[str, str] | None:
     entries = [f"{reading} {particle}" for reading in readings] if particle else []
     for entry in [*entries, *readings]:
         found = lexicons.verb_class(entry)
+        if found == HEADING_CLASS and not has_heading(token, lexicons):
+            continue
         if found:
             return entry, found
     return None
+
+
+def has_heading(verb: Token, lexicons: Lexicons) -> bool:
+    """Whether a verb without a direct object or passive subject is given a heading.
+
+    A heading is a listed direction word (``turned northward``, ``stood
+    seaward``; the parser often reads it as the verb's object), a phrase of
+    ``towards`` (``turned towards the plain``), or ``to`` or ``into`` with a
+    direction word or a side (``turning to the West``, ``wheeled to the
+    left``). Without one, ``turned in``, ``turned the key``, ``the canoe was
+    turned keel upward`` and ``stood still`` are not motion.
+    """
+    children = list(verb.children)
+    if any(child.dep_ in _TURNED_THING_DEPS and child.lower_ not in lexicons.directions for child in children):
+        return False
+    for child in children:
+        if child.dep_ in _HEADING_DEPS and child.lower_ in lexicons.directions:
+            return True
+        if child.dep_ != "prep":
+            continue
+        objects = [grand for grand in child.children if grand.dep_ == "pobj"]
+        if objects and child.lower_ in _TOWARDS:
+            return True
+        if child.lower_ in _TO and any(o.lower_ in lexicons.directions or o.lower_ in _SIDES for o in objects):
+            return True
+    return False
 
 
 def _parse(text: str, *, source: str, kind: str) -> _Entries:
