@@ -213,9 +213,6 @@ LOST_WORKER = ("the worker process extracting it ended abruptly (killed, or out 
                "is kept: rerun with --resume to finish it")
 
 
-_POLL_SECONDS = 0.25
-
-
 def _processes(model_path: str, books: Sequence[Book], options: dict[str, Any], jobs: int) -> Iterator[BookResult]:
     """Books extracted in ``jobs`` local worker processes; a worker that dies fails the books it had, not the run."""
     # spawn, not fork: the parent may run a progress thread, and each worker loads its own parser anyway
@@ -223,9 +220,7 @@ def _processes(model_path: str, books: Sequence[Book], options: dict[str, Any], 
     try:
         pending = {pool.submit(extract_book, model_path, book, **options): book for book in books}
         while pending:
-            # a bounded wait: the main thread checks for Ctrl+C at least this often, even when the signal was
-            # taken by one of the pool's threads while this one slept
-            done, _ = wait(pending, timeout=_POLL_SECONDS, return_when=FIRST_COMPLETED)
+            done, _ = wait(pending, return_when=FIRST_COMPLETED)
             for future in done:
                 book = pending.pop(future)
                 try:
