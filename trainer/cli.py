@@ -316,27 +316,37 @@ def extract(
 @contextmanager
 def library_progress(*, enabled: bool):
     """Report each finished book: a bar of books done, words per second and time left, or a line per failure."""
-    from trainer.models.library import FAILED, SKIPPED
+    from trainer.models.library import FAILED
 
     if not enabled:
-        yield lambda result, done, total: say(f"failed: {result.error}") if result.status == FAILED else None
+        yield lambda result, progress: say(f"failed: {result.error}") if result.status == FAILED else None
         return
     from rich.console import Console
-    from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
+    from rich.progress import BarColumn, Progress, ProgressColumn, TextColumn, TimeElapsedColumn
+    from rich.text import Text
+
+    class TimeLeft(ProgressColumn):
+        """A countdown to the estimated end, unknown (-:--:--) before the first book and once it has run out."""
+
+        def render(self, task) -> Text:
+            finish = task.fields["finish"]
+            left = 0.0 if task.finished else None if finish is None else finish - time.perf_counter()
+            shown = "-:--:--" if left is None or (left <= 0 and not task.finished) else \
+                time.strftime("%H:%M:%S", time.gmtime(left))
+            return Text(f"left {shown}")
 
     columns = (TextColumn("extracting"), BarColumn(), TextColumn("{task.completed:.0f}/{task.fields[books]} books"),
-               TextColumn("{task.fields[rate]:,.0f} words/s"), TimeElapsedColumn(), TextColumn("left {task.fields[left]}"))
-    started, words, worked = time.perf_counter(), [0], [0]
+               TextColumn("{task.fields[rate]:,.0f} words/s"), TimeElapsedColumn(), TimeLeft())
+    started, words = time.perf_counter(), [0]
     with Progress(*columns, console=Console(stderr=True)) as bar:
-        task = bar.add_task("books", total=None, books="?", rate=0.0, left="-:--:--")
+        task = bar.add_task("books", total=None, books="?", rate=0.0, finish=None)
 
-        def update(result, done: int, total: int) -> None:
-            elapsed = time.perf_counter() - started
+        def update(result, progress) -> None:
+            now = time.perf_counter()
             words[0] += result.words
-            worked[0] += result.status != SKIPPED
-            left = elapsed / worked[0] * (total - done) if worked[0] else 0.0
-            bar.update(task, completed=done, total=total, books=total, rate=words[0] / max(elapsed, 1e-9),
-                       left=time.strftime("%H:%M:%S", time.gmtime(left)))
+            left = progress.seconds_left(now - started)
+            bar.update(task, completed=progress.done, total=progress.books, books=progress.books,
+                       rate=words[0] / max(now - started, 1e-9), finish=None if left is None else now + left)
             if result.status == FAILED:
                 bar.console.print(f"failed: {result.error}", markup=False, highlight=False, soft_wrap=True)
 

@@ -18,7 +18,8 @@ from trainer.cli import app
 from trainer.corpus.reader import read_corpus
 from trainer.errors import ConfigError, OutputError
 from trainer.models.apply import extract_file, partial_path, resume_point
-from trainer.models.library import DONE, SKIPPED, extract_library, find_books, names_a_library
+from trainer.models.library import (DONE, FAILED, SKIPPED, Book, BookResult, LibraryProgress, extract_library,
+                                    find_books, names_a_library)
 from trainer.models.training import load_extractor
 from trainer.parsing.text import paragraphs, read_text_file
 
@@ -104,7 +105,7 @@ def test_a_library_gives_the_same_files_serially_on_two_processes_and_on_a_dask_
     library = make_library(tmp_path / "lib")
     seen = []
     serial = extract_library(rules_model_file, [library], tmp_path / "serial", table=tmp_path / "all.tsv",
-                             on_book=lambda result, done, total: seen.append((result.status, done, total)))
+                             on_book=lambda result, progress: seen.append((result.status, progress.done, progress.books)))
     assert [r.status for r in serial.results] == [DONE] * 5
     assert seen == [(DONE, n, 5) for n in range(1, 6)]
     expected = files(tmp_path / "serial")
@@ -223,6 +224,37 @@ def test_ctrl_c_stops_a_parallel_library_run_with_a_message_and_no_traceback(rul
     assert process.returncode == 130, f"{timing}\n{errors}"
     assert "interrupted: outputs are written whole or not at all" in errors and "--resume" in errors
     assert "Traceback" not in errors
+
+
+def _result(name: str, status: str, words: int = 0) -> BookResult:
+    return BookResult(Book(Path(f"{name}.txt"), Path(f"{name}.jsonl"), "text"), status, words=words)
+
+
+def test_time_left_is_the_bytes_still_to_do_at_the_rate_of_the_books_extracted_so_far():
+    progress = LibraryProgress(books=4, size=1000)
+    assert progress.seconds_left(5.0) is None
+    progress.add(_result("a", SKIPPED), 400)  # found finished by --resume: done, but no part of the rate
+    assert progress.seconds_left(5.0) is None
+    progress.add(_result("b", DONE), 200)  # 200 bytes in 10 s: 20 bytes/s, 400 bytes to go
+    assert progress.seconds_left(10.0) == pytest.approx(20.0)
+    progress.add(_result("c", FAILED), 100)  # failed: done, but no part of the rate
+    assert progress.seconds_left(10.0) == pytest.approx(15.0)
+    assert (progress.done, progress.size_done, progress.size_worked) == (3, 700, 200)
+
+
+def test_the_library_display_counts_down_to_the_estimated_end(monkeypatch, capsys):
+    """At 10 s, one book of 100 bytes done out of 300: 20 s left at that rate, shown as a clock."""
+    from trainer.cli import library_progress
+
+    readings = iter([0.0])  # the display's start, then 10 s for every later reading
+    monkeypatch.setattr(time, "perf_counter", lambda: next(readings, 10.0))
+    progress = LibraryProgress(books=2, size=300)
+    with library_progress(enabled=True) as update:
+        result = _result("a", DONE, words=500)
+        progress.add(result, 100)
+        update(result, progress)
+    shown = capsys.readouterr().err
+    assert "1/2 books" in shown and "50 words/s" in shown and "left 00:00:20" in shown
 
 
 def test_a_library_is_written_to_a_folder(tmp_path):

@@ -76,7 +76,35 @@ class LibrarySummary:
         return sum(r.status == status for r in self.results)
 
 
-BookDone = Callable[[BookResult, int, int], None]  # a finished book, books finished so far, books in all
+@dataclass
+class LibraryProgress:
+    """How far a library run has come, in books and in bytes of input, from which the time left is estimated."""
+
+    books: int
+    size: int
+    done: int = 0
+    size_done: int = 0
+    size_worked: int = 0  # bytes of the books this run extracted (not those found finished, nor failed ones)
+
+    def add(self, result: BookResult, size: int) -> None:
+        """Count one finished book of ``size`` bytes."""
+        self.done += 1
+        self.size_done += size
+        if result.status == DONE:
+            self.size_worked += size
+
+    def seconds_left(self, elapsed: float) -> float | None:
+        """Seconds until the last book is done at the rate (bytes per second) of the books extracted so far.
+
+        None before the first book is extracted. The rate counts only finished
+        books, so while several run at once it is low and the estimate long.
+        """
+        if not self.size_worked:
+            return None
+        return elapsed * (self.size - self.size_done) / self.size_worked
+
+
+BookDone = Callable[[BookResult, LibraryProgress], None]  # a finished book, and the run's progress after it
 
 
 def names_a_library(inputs: Sequence[Path], output: Path) -> bool:
@@ -114,6 +142,14 @@ def find_books(inputs: Sequence[Path], folder: Path, *, input_format: str | None
                               "rename one of the books, or extract them into different folders")
         books.setdefault(book.target.name, book)
     return list(books.values())
+
+
+def _size(source: Path) -> int:
+    """A book's size in bytes (0 if it cannot be read; its extraction then reports why)."""
+    try:
+        return source.stat().st_size
+    except OSError:
+        return 0
 
 
 def _same(a: Path, b: Path) -> bool:
@@ -262,7 +298,7 @@ def extract_library(
     ``jobs`` local worker processes, or one task per book on the Dask cluster at
     ``scheduler``; the files are the same either way. ``table`` also writes one
     table (.csv or .tsv) of the events of every book extracted, in book order.
-    ``on_book`` hears of each book as it finishes.
+    ``on_book`` hears of each book as it finishes, with the run's :class:`LibraryProgress`.
     """
     from trainer.models.persist import digest_path, read_metadata
 
@@ -297,10 +333,13 @@ def extract_library(
                 else _processes(model, books, options, jobs) if jobs > 1 and len(books) > 1
                 else _serial(model, books, options))
         by_target: dict[Path, BookResult] = {}
+        sizes = {book.target: _size(book.source) for book in books}
+        progress = LibraryProgress(len(books), sum(sizes.values()))
         for result in runs:
             by_target[result.book.target] = result
+            progress.add(result, sizes[result.book.target])
             if on_book:
-                on_book(result, len(by_target), len(books))
+                on_book(result, progress)
         summary = LibrarySummary([by_target[b.target] for b in books])
         if table:
             summary.table = _write_table(summary, table, tuple(meta["roles"]))
