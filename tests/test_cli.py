@@ -350,3 +350,54 @@ def test_fit_reports_the_tuned_trigger_threshold_and_keeps_it_in_the_metadata(tm
     assert tuned["threshold"] in {round(0.05 * k, 2) for k in range(2, 13)} and 0 < tuned["inner_fold_f1"] <= 1
     assert (f"trigger threshold {tuned['threshold']:.2f}, chosen on inner folds of the training docs; "
             f"trigger F1 on their held-out docs {tuned['inner_fold_f1']:.3f}") in fitted.output
+
+
+def test_sigterm_stops_a_command_as_ctrl_c_does_only_while_it_runs_and_an_ignored_one_stays_ignored():
+    """Inside sigterm_as_interrupt SIGTERM raises KeyboardInterrupt (so Ctrl+C's clean-up runs); the handler before
+    it comes back after; a SIGTERM that was ignored stays ignored (as Python keeps an ignored SIGINT)."""
+    import os
+    import signal
+
+    from trainer.cli import SIGTERM_RECEIVED, sigterm_as_interrupt
+
+    previous = signal.signal(signal.SIGTERM, signal.SIG_DFL)
+    try:
+        with pytest.raises(KeyboardInterrupt) as stopped, sigterm_as_interrupt():
+            os.kill(os.getpid(), signal.SIGTERM)
+            for _ in range(100):  # the handler runs at the next bytecode boundary
+                pass
+        assert stopped.value.args == (SIGTERM_RECEIVED,)
+        assert signal.getsignal(signal.SIGTERM) == signal.SIG_DFL
+        signal.signal(signal.SIGTERM, signal.SIG_IGN)
+        with sigterm_as_interrupt():
+            assert signal.getsignal(signal.SIGTERM) == signal.SIG_IGN
+            os.kill(os.getpid(), signal.SIGTERM)  # ignored: nothing happens
+    finally:
+        signal.signal(signal.SIGTERM, previous)
+
+
+def test_a_command_stopped_by_sigterm_says_so_and_exits_with_143(tmp_path, monkeypatch):
+    """A SIGTERM sent while `score` runs: Ctrl+C's message and 143, i.e. 128 + 15, the shell's exit status for a
+    process ended by SIGTERM (common practice)."""
+    import os
+    import signal
+
+    import trainer.experiment.score as score
+
+    gold = tmp_path / "gold.jsonl"
+    gold.write_text(json.dumps(GOOD) + "\n", encoding="utf-8")
+
+    def killed(*args, **kwargs):
+        os.kill(os.getpid(), signal.SIGTERM)
+        for _ in range(100):
+            pass
+        raise AssertionError("the signal did not stop the command")
+
+    monkeypatch.setattr(score, "score_report", killed)
+    previous = signal.signal(signal.SIGTERM, signal.SIG_DFL)  # as a shell starts a command (this run may ignore it)
+    try:
+        result = CliRunner().invoke(app, ["score", str(gold), str(gold)])
+    finally:
+        signal.signal(signal.SIGTERM, previous)
+    assert result.exit_code == 143, result.output
+    assert "terminated (SIGTERM): outputs are written whole or not at all, so no file is torn" in result.output

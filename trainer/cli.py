@@ -1,18 +1,21 @@
 """The ``itinerant`` command line: each command declares options and calls the library.
 
 Only the package's own errors are caught: their message is printed and the
-command exits with the error's code, with no traceback. Anything else is a bug
-and keeps its traceback.
+command exits with the error's code, with no traceback. Ctrl+C and SIGTERM
+stop a command cleanly (exit 130 and 143). Anything else is a bug and keeps
+its traceback.
 """
 
 from __future__ import annotations
 
 import functools
+import signal
 import sys
+import threading
 import time
 from contextlib import contextmanager
 from pathlib import Path
-from typing import TYPE_CHECKING, Annotated, Callable, Optional, Sequence, get_args, get_origin
+from typing import TYPE_CHECKING, Annotated, Callable, Iterator, Optional, Sequence, get_args, get_origin
 
 import typer
 import typer.core
@@ -76,24 +79,52 @@ def say(message: str = "") -> None:
 
 
 INTERRUPTED = 130  # the shell's exit status for a run stopped by Ctrl+C (128 + SIGINT)
+TERMINATED = 143  # and by SIGTERM (128 + SIGTERM)
 # Commands that can go on from where an interrupted run stopped, and how.
 RESUMABLE = {"extract": "; run the same command with --resume to go on from where it stopped"}
 
 
+SIGTERM_RECEIVED = "SIGTERM"  # the argument of the KeyboardInterrupt that SIGTERM raises while a command runs
+
+
+def _terminate(signum: int, frame: object) -> None:
+    # a KeyboardInterrupt, so every clean-up that Ctrl+C runs (workers stopped, partial outputs whole or removed)
+    # runs for SIGTERM too
+    raise KeyboardInterrupt(SIGTERM_RECEIVED)
+
+
+@contextmanager
+def sigterm_as_interrupt() -> Iterator[None]:
+    """While a command runs, SIGTERM stops it as Ctrl+C does (workers stopped, no torn file) instead of killing
+    this process alone, which would leave its worker processes running. An inherited ignored SIGTERM stays
+    ignored, as Python keeps an ignored SIGINT; off the main thread (where no handler can be set) nothing changes."""
+    if threading.current_thread() is not threading.main_thread() or signal.getsignal(signal.SIGTERM) != signal.SIG_DFL:
+        yield
+        return
+    previous = signal.signal(signal.SIGTERM, _terminate)
+    try:
+        yield
+    finally:
+        signal.signal(signal.SIGTERM, previous)
+
+
 def user_errors(command: Callable) -> Callable:
-    """Turn the package's errors into a message and an exit code."""
+    """Turn the package's errors into a message and an exit code, and Ctrl+C or SIGTERM into a clean stop."""
 
     @functools.wraps(command)
     def wrapper(*args, **kwargs):
         try:
-            return command(*args, **kwargs)
+            with sigterm_as_interrupt():
+                return command(*args, **kwargs)
         except ItinerantError as exc:
             typer.echo(f"error: {exc}", err=True)
             raise typer.Exit(exc.exit_code) from None
-        except KeyboardInterrupt:
+        except KeyboardInterrupt as exc:
             resume = RESUMABLE.get(command.__name__, "")
-            typer.echo(f"interrupted: outputs are written whole or not at all, so no file is torn{resume}", err=True)
-            raise typer.Exit(INTERRUPTED) from None
+            terminated = exc.args == (SIGTERM_RECEIVED,)
+            how = "terminated (SIGTERM)" if terminated else "interrupted"
+            typer.echo(f"{how}: outputs are written whole or not at all, so no file is torn{resume}", err=True)
+            raise typer.Exit(TERMINATED if terminated else INTERRUPTED) from None
 
     return wrapper
 
