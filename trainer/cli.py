@@ -360,11 +360,11 @@ def library_progress(*, enabled: bool):
         """A countdown to the estimated end, unknown (-:--:--) before the first book and once it has run out."""
 
         def render(self, task) -> Text:
+            if task.finished:
+                return Text("left 00:00:00")
             finish = task.fields["finish"]
-            left = 0.0 if task.finished else None if finish is None else finish - time.perf_counter()
-            shown = "-:--:--" if left is None or (left <= 0 and not task.finished) else \
-                time.strftime("%H:%M:%S", time.gmtime(left))
-            return Text(f"left {shown}")
+            left = None if finish is None else finish - time.perf_counter()
+            return Text("left -:--:--" if left is None or left <= 0 else time.strftime("left %H:%M:%S", time.gmtime(left)))
 
     columns = (TextColumn("extracting"), BarColumn(), TextColumn("{task.completed:.0f}/{task.fields[books]} books"),
                TextColumn("{task.fields[rate]:,.0f} words/s"), TimeElapsedColumn(), TimeLeft())
