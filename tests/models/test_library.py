@@ -225,18 +225,24 @@ AS_A_TERMINAL_JOB = ("import os, signal, sys; signal.signal(signal.SIGINT, signa
                      "os.execv(sys.executable, [sys.executable, '-m', 'trainer.cli', *sys.argv[1:]])")
 
 
-@pytest.mark.slow
-def test_ctrl_c_stops_a_parallel_library_run_with_a_message_and_no_traceback(rules_model_file, tmp_path):
-    # long books (about 200,000 words), so that the run is still going when the signal comes, however loaded the
-    # machine; interrupted, the run takes seconds
+def _started_parallel_run(model: Path, tmp_path: Path) -> tuple[subprocess.Popen, Path, float]:
+    """`extract --jobs 2` on long books, as a terminal job in its own process group, once a book has begun: the
+    process, its output folder and its start (time.monotonic). The books (about 200,000 words) keep the run going
+    when a signal comes, however loaded the machine; interrupted, the run takes seconds."""
     library = make_library(tmp_path / "lib", books=2, copies=50)
     out = tmp_path / "out"
-    command = [sys.executable, "-c", AS_A_TERMINAL_JOB, "extract", str(rules_model_file), str(library), "-o", str(out),
+    command = [sys.executable, "-c", AS_A_TERMINAL_JOB, "extract", str(model), str(library), "-o", str(out),
                "--batch-size", "4", "--no-progress", "--jobs", "2"]
     started = time.monotonic()
     process = subprocess.Popen(command, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True,
                                start_new_session=True)
     _wait_for_a_started_book(out, process)
+    return process, out, started
+
+
+@pytest.mark.slow
+def test_ctrl_c_stops_a_parallel_library_run_with_a_message_and_no_traceback(rules_model_file, tmp_path):
+    process, _, started = _started_parallel_run(rules_model_file, tmp_path)
     signalled = time.monotonic() - started
     os.killpg(process.pid, signal.SIGINT)  # as a terminal's Ctrl+C: the whole process group
     missed = ""
@@ -272,13 +278,7 @@ def test_sigterm_stops_a_parallel_library_run_and_its_workers(rules_model_file, 
     """`kill PID` of an `extract --jobs 2` run (SIGTERM to that process alone, as a job scheduler sends it) stops its
     worker processes too, which would otherwise run on orphaned, exits with 143 (128 + 15, the shell's convention
     for SIGTERM: common practice) and keeps the partial books for --resume."""
-    library = make_library(tmp_path / "lib", books=2, copies=50)
-    out = tmp_path / "out"
-    command = [sys.executable, "-c", AS_A_TERMINAL_JOB, "extract", str(rules_model_file), str(library), "-o", str(out),
-               "--batch-size", "4", "--no-progress", "--jobs", "2"]
-    process = subprocess.Popen(command, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True,
-                               start_new_session=True)
-    _wait_for_a_started_book(out, process)
+    process, out, _ = _started_parallel_run(rules_model_file, tmp_path)
     workers = _workers(process.pid)
     process.send_signal(signal.SIGTERM)
     _, errors = process.communicate(timeout=120)
