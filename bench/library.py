@@ -5,13 +5,15 @@
 2. a library of books: `extract --jobs 2` against `--jobs 1` (target: at least 1.7x);
 3. the same library on a local Dask cluster of two worker processes against `--jobs 1` (target: at least 1.6x),
    with Dask's default worker settings and with those of `configs/dask/worker.yaml`;
-4. peak memory of `extract` on a library of many books against one of a tenth as many (target: at most 1.1x).
+4. peak memory of `extract` on a library of many books against one of a tenth as many (target: at most 1.1x);
+5. one long book: `extract --jobs 2` (the book cut into parts that two workers share) against `--jobs 1`, with
+   the same output file.
 
 Books are cut from the demo chapter (bench/_common.py). Usage:
 
     python bench/library.py [--words 100000] [--books 20] [--book-words 5000] [--memory-books 10,100]
                             [--config configs/default.toml] [--skip-dask] [--dask-repeats 1]
-                            [--sections one-book,parallel,memory]
+                            [--sections one-book,parallel,memory,long-book]
 """
 
 from __future__ import annotations
@@ -189,7 +191,24 @@ def memory(args: argparse.Namespace, model: Path, tmp: Path) -> None:
           f"{many} books ({sizes[many]} words) {peaks[many]:.1f} MB; ratio {peaks[many] / peaks[few]:.2f} (target <= 1.10)")
 
 
-SECTIONS = {"one-book": one_book, "parallel": parallel, "memory": memory}
+def long_book(args: argparse.Namespace, model: Path, tmp: Path) -> None:
+    book = tmp / "long-book.txt"
+    words = make_book(book, args.words)
+    runs, cpus = {}, {}
+    for jobs in (1, 2):
+        runs[jobs], cpus[jobs], _ = cpu_timed([*ITINERANT, "extract", str(model), str(book), "-o",
+                                               str(tmp / f"long-{jobs}.jsonl"), "--no-progress", "--jobs", str(jobs)])
+    same = (tmp / "long-1.jsonl").read_bytes() == (tmp / "long-2.jsonl").read_bytes()
+    from trainer.models.book_parts import book_parts
+
+    print(f"5. one book of {words} words, {book.stat().st_size} bytes, {len(book_parts(book, 'text'))} parts "
+          "(CPU: all processes of the run)")
+    print(f"   --jobs 1 : {runs[1]:7.1f} s {words / runs[1]:8.0f} words/s (CPU {cpus[1]:.1f} s)")
+    print(f"   --jobs 2 : {runs[2]:7.1f} s {words / runs[2]:8.0f} words/s (CPU {cpus[2]:.1f} s), the book in parts; "
+          f"speed-up {runs[1] / runs[2]:.2f}x; identical file: {same}")
+
+
+SECTIONS = {"one-book": one_book, "parallel": parallel, "memory": memory, "long-book": long_book}
 
 
 def main() -> None:

@@ -307,14 +307,16 @@ def extract(
     skip_bad: Annotated[bool, typer.Option(help="JSONL input: leave out records with errors (listed).")] = False,
     progress: Annotated[Optional[bool], typer.Option(help="Show a progress bar (default: when stderr is a terminal).")] = None,
     compare: Annotated[bool, typer.Option(help="JSONL input with events: score the predictions against them.")] = False,
-    jobs: Annotated[int, typer.Option("--jobs", "-j", help="Library: books extracted at once, in local worker processes.")] = 1,
-    scheduler: Annotated[Optional[str], typer.Option(help="Library: Dask scheduler address (e.g. tcp://host:8786); one task per book on that cluster, whose workers must see the same paths.")] = None,
+    jobs: Annotated[int, typer.Option("--jobs", "-j", help="Local worker processes: books of a library extracted at once, or parts of one long book (the output is the same).")] = 1,
+    scheduler: Annotated[Optional[str], typer.Option(help="Dask scheduler address (e.g. tcp://host:8786): one task per book of a library, or per part of one book, on that cluster, whose workers must see the same paths.")] = None,
 ) -> None:
     """Apply a model to a book, a JSONL file or a whole library; offsets into a plain-text file are kept in each record's meta.
 
     Several inputs, a folder, or an output folder (existing, or named without an extension) make a library run.
 
     A library run writes one output per book; a book that fails is reported and the others go on.
+
+    With --jobs or --scheduler, one book is cut into parts of whole paragraphs that the workers share; the output is the file a run in one process writes.
 
     Exit codes: 0 all written, 1 some books failed, 2 unusable input or output.
     """

@@ -23,6 +23,9 @@ class ItinerantError(Exception):
         self.fix = fix
         super().__init__(f"{cause}\n  fix: {fix}" if fix else cause)
 
+    def __reduce__(self):  # raised in a worker process and re-raised in the parent with its cause and fix apart
+        return type(self), (self.cause, self.fix)
+
 
 class UnreadableInputError(ItinerantError):
     """A file could not be opened or decoded at all."""
@@ -64,6 +67,12 @@ class OutputError(ItinerantError):
     """An output that would replace an input, is the wrong kind of path, cannot be written, or is being written."""
 
     exit_code = 2
+
+
+class WorkerLostError(ItinerantError):
+    """A worker process ended abruptly (killed, out of memory) while it extracted part of a book."""
+
+    exit_code = 1
 
 
 class StaleCopyError(ItinerantError):

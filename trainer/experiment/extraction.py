@@ -13,7 +13,8 @@ from trainer.errors import ConfigError
 
 @dataclass
 class ExtractOptions:
-    """How to read the inputs and run; the library-only options are ignored for one book."""
+    """How to read the inputs and run: ``jobs`` and ``scheduler`` share the books of a library among workers, or the
+    parts of one long book."""
 
     table: Path | None = None
     input_format: str | None = None
@@ -86,9 +87,10 @@ def extract(model: Path | str, sources: Sequence[Path | str], output: Path | str
 def _extract_book(model: Path, source: Path, output: Path, options: ExtractOptions,
                   on_progress: Callable[[int, float], None] | None) -> ExtractOutcome:
     from trainer.models.apply import check_source, extract_file
+    from trainer.models.book_parts import extract_in_parts, remove_parts, shares_the_book
     from trainer.models.persist import digest_path
     from trainer.models.training import load_extractor
-    from trainer.outputs import check_output
+    from trainer.outputs import check_output, output_lock
 
     fmt = options.input_format or ("jsonl" if source.suffix.lower() == ".jsonl" else "text")
     if options.compare and fmt != "jsonl":
@@ -103,9 +105,17 @@ def _extract_book(model: Path, source: Path, output: Path, options: ExtractOptio
         from trainer.experiment.score import gold_records
 
         gold_records(source, roles=trained.roles, skip_bad=options.skip_bad, skippable=True)  # refused before anything is written
-    summary = extract_file(trained, source, output, input_format=fmt, doc_name=options.doc,
-                           batch_size=options.batch_size, resume=options.resume, skip_bad=options.skip_bad,
-                           on_progress=on_progress)
+    if shares_the_book(output, jobs=options.jobs, scheduler=options.scheduler, resume=options.resume):
+        summary = extract_in_parts(model, source, output, input_format=fmt, doc_name=options.doc or source.stem,
+                                   jobs=options.jobs, scheduler=options.scheduler, resume=options.resume,
+                                   batch_size=options.batch_size, skip_bad=options.skip_bad, on_progress=on_progress)
+    else:
+        with output_lock(output):
+            if not options.resume:
+                remove_parts(output)
+            summary = extract_file(trained, source, output, input_format=fmt, doc_name=options.doc,
+                                   batch_size=options.batch_size, resume=options.resume, skip_bad=options.skip_bad,
+                                   on_progress=on_progress)
     comparison = None
     if options.compare:
         from trainer.evaluation.summary import EvaluationSettings

@@ -9,6 +9,10 @@ is cut (for plain text, back to the start of the last paragraph written), and
 extraction goes on from there, giving the same file as an uninterrupted run.
 The side file ``<output>.input`` records the input's SHA-256, format and doc
 name, so a resume with another input is refused instead of mixing the two.
+
+A :class:`trainer.models.library.Part` limits a run to a range of the input
+(paragraphs of a text, records of a JSONL file), so that workers can share a
+long book (:mod:`trainer.models.book_parts`); a part's sentences are numbered from 1.
 """
 
 from __future__ import annotations
@@ -29,6 +33,7 @@ from trainer.corpus.jsonl import dumps_record, not_utf8
 from trainer.corpus.reader import iter_records
 from trainer.corpus.records import Record
 from trainer.errors import CorpusError, ItinerantError, UnreadableInputError
+from trainer.models.library import WHOLE, Part
 from trainer.models.training import TrainedExtractor, parser_for
 from trainer.outputs import WRITE_ERRNOS, check_output, output_lock, publish, write_failed, write_text
 from trainer.parsing.parse import parse_records
@@ -120,29 +125,49 @@ def _batches(items: Iterable, size: int) -> Iterator[list]:
 
 
 def _text_pairs(nlp: Language, source: Path, doc_name: str, point: ResumePoint,
-                read: list[int]) -> Iterator[tuple[Record, Doc | None]]:
+                read: list[int], part: Part) -> Iterator[tuple[Record, Doc | None]]:
     def remaining() -> Iterator[tuple[int, str]]:
         for offset, paragraph in iter_paragraphs(source):
             read[0] = offset
-            if point.paragraph is None or offset >= point.paragraph:
+            if part.end is not None and offset >= part.end:
+                return
+            if offset >= part.first and (point.paragraph is None or offset >= point.paragraph):
                 yield offset, paragraph
 
     return sentence_records(nlp, remaining(), doc_name=doc_name, source=str(source), first_number=point.records + 1)
 
 
 def _jsonl_pairs(trained: TrainedExtractor, source: Path, point: ResumePoint, skipped: list,
-                 read: list[int], skip_bad: bool) -> Iterator[tuple[Record, Doc | None]]:
+                 read: list[int], skip_bad: bool, part: Part) -> Iterator[tuple[Record, Doc | None]]:
+    """The part's records after those an earlier run wrote.
+
+    Every part reads the file from its start, so a record left out as bad is
+    reported only by the part holding the good record before it (the first
+    part, for bad records before any good one).
+    """
     records = iter_records(source, roles=trained.roles, skip_bad=skip_bad, skipped=skipped)
+    first = max(part.first, 1)
+    reached = first == 1
     for number, record in enumerate(records, start=1):
         read[0] = number
-        if number < point.records:
+        if part.end is not None and number >= part.end:
+            break
+        if number < first:
             continue
-        if number == point.records:
+        if not reached:
+            del skipped[:]  # bad records before the part's first: an earlier part reports them
+            reached = True
+        kept = number - first + 1  # the record's place in this part's output
+        if kept < point.records:
+            continue
+        if kept == point.records:
             if record.id != point.last_id:
                 raise CorpusError(f"{source}: record {number} is {record.id!r} but the output to resume ends with "
                                   f"{point.last_id!r}", "resume only with the same input, or start a new output file")
             continue
         yield record, None
+    if not reached:
+        del skipped[:]  # the part holds no record: its bad records are reported by an earlier part
 
 
 def partial_path(target: Path) -> Path:
@@ -155,13 +180,17 @@ def input_note_path(output: Path) -> Path:
     return output.with_name(output.name + INPUT_NOTE_SUFFIX)
 
 
-def input_note(source: Path, input_format: str, doc_name: str) -> dict[str, str]:
-    """What identifies an extraction's input: the SHA-256 of its bytes, its format and the doc name used."""
+def input_note(source: Path, input_format: str, doc_name: str, part: Part = WHOLE) -> dict[str, str]:
+    """What identifies an extraction's input: the SHA-256 of its bytes, its format, the doc name used, and the
+    range of it a part covers (no ``part`` key for a whole book)."""
     digest = hashlib.sha256()
     with open(source, "rb") as handle:
         for block in iter(lambda: handle.read(1 << 20), b""):
             digest.update(block)
-    return {"sha256": digest.hexdigest(), "format": input_format, "doc": doc_name}
+    note = {"sha256": digest.hexdigest(), "format": input_format, "doc": doc_name}
+    if part != WHOLE:
+        note["part"] = str(part)
+    return note
 
 
 def _recorded_note(output: Path) -> dict[str, str] | None:
@@ -200,7 +229,7 @@ def _resume_base(target: Path, wanted: dict[str, str]) -> Path | None:
 def extract_file(
     trained: TrainedExtractor, source: Path, target: Path, *, input_format: str = "text", doc_name: str | None = None,
     batch_size: int = 256, nlp: Language | None = None, skip_bad: bool = False, resume: bool = False,
-    on_progress: Progress | None = None,
+    on_progress: Progress | None = None, part: Part = WHOLE,
 ) -> ExtractionSummary:
     """Extract events from a plain-text or JSONL file into canonical JSONL, one batch at a time.
 
@@ -210,6 +239,7 @@ def extract_file(
     the module docstring) after checking, against its side file
     ``<output>.input``, that it was made from the same input. ``target`` may not
     be ``source``, and a second run writing the same ``target`` is refused.
+    ``part`` extracts only that range of the input, its sentences numbered from 1.
     """
     source, target = Path(source), Path(target)
     check_batch_size(batch_size)
@@ -218,7 +248,7 @@ def extract_file(
     plain_text = input_format == "text"
     doc_name = doc_name or source.stem
     with output_lock(target):
-        wanted = input_note(source, input_format, doc_name)
+        wanted = input_note(source, input_format, doc_name, part)
         base = _resume_base(target, wanted) if resume else None
         point = resume_point(base, plain_text=plain_text) if base else ResumePoint()
         partial = partial_path(target)
@@ -234,8 +264,8 @@ def extract_file(
         summary = ExtractionSummary(resumed=point.records)
         read = [0]
         total = _input_size(source, plain_text=plain_text) if on_progress else 0
-        pairs = (_text_pairs(nlp, source, doc_name, point, read) if plain_text
-                 else _jsonl_pairs(trained, source, point, summary.skipped, read, skip_bad))
+        pairs = (_text_pairs(nlp, source, doc_name, point, read, part) if plain_text
+                 else _jsonl_pairs(trained, source, point, summary.skipped, read, skip_bad, part))
         with open(partial, "a", encoding="utf-8", newline="\n") as out:
             try:
                 for batch in _batches(pairs, batch_size):

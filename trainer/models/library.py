@@ -37,12 +37,34 @@ DONE, SKIPPED, FAILED = "extracted", "already done", "failed"
 
 
 @dataclass(frozen=True)
+class Part:
+    """A range of a book: plain-text paragraphs whose character offset is in ``[first, end)``, or JSONL records
+    whose number (from 1) is; ``end`` None runs to the end of the input."""
+
+    first: int
+    end: int | None = None
+
+    def __str__(self) -> str:
+        return f"{self.first}-{'' if self.end is None else self.end}"
+
+
+WHOLE = Part(0)
+
+
+@dataclass(frozen=True)
 class Book:
-    """One input file and where its records go."""
+    """One input file (or one part of it) and where its records go; ``doc`` names its documents (default: the file's
+    stem)."""
 
     source: Path
     target: Path
     input_format: str
+    doc: str | None = None
+    part: Part = WHOLE
+
+    @property
+    def doc_name(self) -> str:
+        return self.doc or self.source.stem
 
 
 @dataclass
@@ -185,36 +207,45 @@ def finished(book: Book) -> bool:
         recorded = json.loads(input_note_path(book.target).read_text(encoding="utf-8"))
     except (OSError, ValueError):
         return False
-    return book.target.is_file() and recorded == input_note(book.source, book.input_format, book.source.stem)
+    return book.target.is_file() and recorded == input_note(book.source, book.input_format, book.doc_name, book.part)
 
 
-def extract_book(model_path: str, book: Book, *, resume: bool = False, batch_size: int = 256,
+def extract_part(model_path: str, book: Book, *, resume: bool = False, batch_size: int = 256,
                  skip_bad: bool = False) -> BookResult:
-    """Extract one book; its errors come back in the result, never raised (a library goes on without it)."""
+    """Extract one book, or the part of one that ``book.part`` names; errors are raised."""
     from trainer.models.apply import extract_file
 
-    try:
-        if resume and finished(book):
-            return BookResult(book, SKIPPED)
-        with open(book.source, "rb") as handle:
-            handle.read(1)
-        trained, nlp = _model(model_path)
-        summary = extract_file(trained, book.source, book.target, input_format=book.input_format,
-                               doc_name=book.source.stem, batch_size=batch_size, nlp=nlp, skip_bad=skip_bad,
-                               resume=resume)
-    except ItinerantError as exc:
-        return BookResult(book, FAILED, error=str(exc))
-    except OSError as exc:
-        return BookResult(book, FAILED, error=f"{book.source}: cannot be read ({exc.strerror or exc})")
+    if resume and finished(book):
+        return BookResult(book, SKIPPED)
+    with open(book.source, "rb") as handle:
+        handle.read(1)
+    trained, nlp = _model(model_path)
+    summary = extract_file(trained, book.source, book.target, input_format=book.input_format,
+                           doc_name=book.doc_name, batch_size=batch_size, nlp=nlp, skip_bad=skip_bad,
+                           resume=resume, part=book.part)
     return BookResult(book, DONE, sentences=summary.sentences, events=summary.events, roles=summary.roles,
                       words=_written_words(book.target, summary.resumed), resumed=summary.resumed,
                       skipped=list(summary.skipped))
 
 
-def _serial(model_path: str, books: Sequence[Book], options: dict[str, Any]) -> Iterator[BookResult]:
+def extract_book(model_path: str, book: Book, *, resume: bool = False, batch_size: int = 256,
+                 skip_bad: bool = False) -> BookResult:
+    """Extract one book; its errors come back in the result, never raised (a library goes on without it)."""
+    try:
+        return extract_part(model_path, book, resume=resume, batch_size=batch_size, skip_bad=skip_bad)
+    except ItinerantError as exc:
+        return BookResult(book, FAILED, error=str(exc))
+    except OSError as exc:
+        return BookResult(book, FAILED, error=f"{book.source}: cannot be read ({exc.strerror or exc})")
+
+
+Task = Callable[..., BookResult]  # extract_book or extract_part: (model path, book, **options)
+
+
+def _serial(task: Task, model_path: str, books: Sequence[Book], options: dict[str, Any]) -> Iterator[BookResult]:
     try:
         for book in books:
-            yield extract_book(model_path, book, **options)
+            yield task(model_path, book, **options)
     finally:
         _LOADED.clear()  # the caller's process keeps neither the model nor the parser after the run
 
@@ -249,12 +280,13 @@ LOST_WORKER = ("the worker process extracting it ended abruptly (killed, or out 
                "is kept: rerun with --resume to finish it")
 
 
-def _processes(model_path: str, books: Sequence[Book], options: dict[str, Any], jobs: int) -> Iterator[BookResult]:
+def _processes(task: Task, model_path: str, books: Sequence[Book], options: dict[str, Any],
+               jobs: int) -> Iterator[BookResult]:
     """Books extracted in ``jobs`` local worker processes; a worker that dies fails the books it had, not the run."""
     # spawn, not fork: the parent may run a progress thread, and each worker loads its own parser anyway
     pool = ProcessPoolExecutor(max_workers=jobs, mp_context=get_context("spawn"), initializer=_worker_start)
     try:
-        pending = {pool.submit(extract_book, model_path, book, **options): book for book in books}
+        pending = {pool.submit(task, model_path, book, **options): book for book in books}
         while pending:
             done, _ = wait(pending, return_when=FIRST_COMPLETED)
             for future in done:
@@ -271,7 +303,8 @@ def _processes(model_path: str, books: Sequence[Book], options: dict[str, Any], 
     pool.shutdown(wait=True)
 
 
-def _cluster(model_path: str, books: Sequence[Book], options: dict[str, Any], scheduler: str) -> Iterator[BookResult]:
+def _cluster(task: Task, model_path: str, books: Sequence[Book], options: dict[str, Any],
+             scheduler: str) -> Iterator[BookResult]:
     try:
         from dask.distributed import Client, as_completed
     except ImportError:
@@ -283,9 +316,20 @@ def _cluster(model_path: str, books: Sequence[Book], options: dict[str, Any], sc
         raise ConfigError(f"no Dask scheduler answers at {scheduler} ({exc})",
                           "start one (`dask scheduler` and `dask worker ADDRESS`) or check the address") from None
     with client:
-        futures = [client.submit(extract_book, model_path, book, pure=False, **options) for book in books]
+        futures = [client.submit(task, model_path, book, pure=False, **options) for book in books]
         for future in as_completed(futures):
             yield future.result()
+
+
+def run_books(task: Task, model_path: str, books: Sequence[Book], options: dict[str, Any], *, jobs: int = 1,
+              scheduler: str | None = None) -> Iterator[BookResult]:
+    """``task(model_path, book, **options)`` for every book, results in the order they finish: on the Dask cluster
+    at ``scheduler``, in ``jobs`` local worker processes, or one after the other in this process."""
+    if scheduler:
+        return _cluster(task, model_path, books, options, scheduler)
+    if jobs > 1 and len(books) > 1:
+        return _processes(task, model_path, books, options, jobs)
+    return _serial(task, model_path, books, options)
 
 
 def extract_library(
@@ -329,9 +373,7 @@ def extract_library(
     options = {"resume": resume, "batch_size": batch_size, "skip_bad": skip_bad}
     model = str(model_path.absolute())
     with output_lock(folder):
-        runs = (_cluster(model, books, options, scheduler) if scheduler
-                else _processes(model, books, options, jobs) if jobs > 1 and len(books) > 1
-                else _serial(model, books, options))
+        runs = run_books(extract_book, model, books, options, jobs=jobs, scheduler=scheduler)
         by_target: dict[Path, BookResult] = {}
         sizes = {book.target: _size(book.source) for book in books}
         progress = LibraryProgress(len(books), sum(sizes.values()))

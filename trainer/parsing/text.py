@@ -63,6 +63,11 @@ def paragraphs(text: str) -> Iterator[tuple[int, str]]:
     return split_paragraphs(text.splitlines(keepends=True))
 
 
+def sentence_id(doc_name: str, number: int) -> str:
+    """The id of a plain-text book's sentence: ``<doc_name>-s00001`` for the first."""
+    return f"{doc_name}-s{number:05d}"
+
+
 def sentence_records(
     nlp: Language, paragraph_items: Iterable[tuple[int, str]], *, doc_name: str, source: str,
     batch_size: int = 32, first_number: int = 1,
@@ -93,7 +98,7 @@ def sentence_records(
             span = parsed[words[0] : words[-1] + 1]
             number += 1
             record = Record(
-                id=f"{doc_name}-s{number:05d}",
+                id=sentence_id(doc_name, number),
                 doc=doc_name,
                 text=span.text,
                 events=None,
