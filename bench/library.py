@@ -7,7 +7,7 @@
    with Dask's default worker settings and with those of `configs/dask/worker.yaml`;
 4. peak memory of `extract` on a library of many books against one of a tenth as many (target: at most 1.1x);
 5. one long book: `extract --jobs 2` (the book cut into parts that two workers share) against `--jobs 1`, with
-   the same output file.
+   the same output file, into a file and as a library of one book (into a folder).
 
 Books are cut from the demo chapter (bench/_common.py). Usage:
 
@@ -198,14 +198,20 @@ def long_book(args: argparse.Namespace, model: Path, tmp: Path) -> None:
     for jobs in (1, 2):
         runs[jobs], cpus[jobs], _ = cpu_timed([*ITINERANT, "extract", str(model), str(book), "-o",
                                                str(tmp / f"long-{jobs}.jsonl"), "--no-progress", "--jobs", str(jobs)])
-    same = (tmp / "long-1.jsonl").read_bytes() == (tmp / "long-2.jsonl").read_bytes()
+    # the same book as a library of one (an output folder), where long books are cut the same way
+    runs["library"], cpus["library"], _ = cpu_timed([*ITINERANT, "extract", str(model), str(book), "-o",
+                                                     str(tmp / "long-library"), "--no-progress", "--jobs", "2"])
+    same = (tmp / "long-1.jsonl").read_bytes() == (tmp / "long-2.jsonl").read_bytes() == (
+        tmp / "long-library" / "long-book.jsonl").read_bytes()
     from trainer.models.book_parts import book_parts
 
     print(f"5. one book of {words} words, {book.stat().st_size} bytes, {len(book_parts(book, 'text'))} parts "
           "(CPU: all processes of the run)")
     print(f"   --jobs 1 : {runs[1]:7.1f} s {words / runs[1]:8.0f} words/s (CPU {cpus[1]:.1f} s)")
     print(f"   --jobs 2 : {runs[2]:7.1f} s {words / runs[2]:8.0f} words/s (CPU {cpus[2]:.1f} s), the book in parts; "
-          f"speed-up {runs[1] / runs[2]:.2f}x; identical file: {same}")
+          f"speed-up {runs[1] / runs[2]:.2f}x")
+    print(f"   as a library of one book, --jobs 2 : {runs['library']:7.1f} s (CPU {cpus['library']:.1f} s); speed-up "
+          f"{runs[1] / runs['library']:.2f}x; identical files: {same}")
 
 
 SECTIONS = {"one-book": one_book, "parallel": parallel, "memory": memory, "long-book": long_book}

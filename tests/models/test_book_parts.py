@@ -225,3 +225,90 @@ def test_a_worker_that_dies_stops_the_run_and_resume_finishes_it(rules_model_fil
     extract_in_parts(rules_model_file, book, target, input_format="text", doc_name="book", parts=parts, resume=True,
                      batch_size=4)
     assert (target.read_bytes(), input_note_path(target).read_bytes()) == expected
+
+
+def make_library(folder: Path) -> Path:
+    """A long book (cut into parts when workers share the library), a short one and a JSONL book."""
+    folder.mkdir()
+    make_book(folder / "long.txt", copies=5)
+    (folder / "short.txt").write_text("We left Caddow at dawn and reached Pellworth by noon.\n", encoding="utf-8")
+    (folder / "letters.jsonl").write_bytes(LETTERS.read_bytes())
+    return folder
+
+
+def library_files(folder: Path) -> dict[str, bytes]:
+    return {p.name: p.read_bytes() for p in sorted(folder.iterdir())}
+
+
+@pytest.mark.slow
+def test_a_long_book_of_a_library_is_cut_when_workers_share_it_and_the_files_stay_the_same(rules_model_file,
+                                                                                           tmp_path):
+    from trainer.models.book_parts import LIBRARY_CUT_BYTES, library_tasks
+    from trainer.models.library import DONE, extract_library, find_books
+
+    distributed = pytest.importorskip("dask.distributed")
+    library = make_library(tmp_path / "lib")
+    books = find_books([library], tmp_path / "jobs2")
+    assert (library / "long.txt").stat().st_size > LIBRARY_CUT_BYTES
+    plan = {book.source.name: tasks for book, tasks in library_tasks(books, jobs=2, scheduler=None, resume=False)}
+    assert len(plan["long.txt"]) == len(book_parts(library / "long.txt", "text")) > 1
+    assert [len(plan[name]) for name in ("letters.jsonl", "short.txt")] == [1, 1]
+    assert all(len(tasks) == 1 for _, tasks in library_tasks(books, jobs=1, scheduler=None, resume=False))
+
+    serial = extract_library(rules_model_file, [library], tmp_path / "serial")
+    seen = []
+    shared = extract_library(rules_model_file, [library], tmp_path / "jobs2", jobs=2,
+                             on_book=lambda result, progress: seen.append((result.book.source.name, progress.done)))
+    assert library_files(tmp_path / "jobs2") == library_files(tmp_path / "serial")
+    # one report per book (a cut book's when its last part is done), not per part
+    assert sorted(name for name, _ in seen) == ["letters.jsonl", "long.txt", "short.txt"]
+    assert [done for _, done in seen] == [1, 2, 3]
+    assert [(r.status, r.sentences, r.events, r.words) for r in shared.results] == [
+        (r.status, r.sentences, r.events, r.words) for r in serial.results]
+    assert [r.status for r in shared.results] == [DONE] * 3
+    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None) as cluster:
+        extract_library(rules_model_file, [library], tmp_path / "dask", scheduler=cluster.scheduler_address)
+    assert library_files(tmp_path / "dask") == library_files(tmp_path / "serial")
+
+
+def test_a_library_resumes_a_book_whose_parts_an_interrupted_run_left(rules_model_file, trained, nlp, tmp_path):
+    """Even with one worker: the book is continued part by part, as its run began."""
+    from trainer.models.library import DONE, SKIPPED, extract_library
+
+    library = tmp_path / "lib"
+    library.mkdir()
+    book = make_book(library / "book.txt", copies=5)
+    (library / "other.txt").write_text("We left Caddow at dawn.\n", encoding="utf-8")
+    expected = extract_library(rules_model_file, [library], tmp_path / "whole")
+    out = tmp_path / "out"
+    extract_library(rules_model_file, [library / "other.txt"], out)
+
+    def stop(sentences, share):
+        raise Stop
+
+    with pytest.raises(Stop):  # the book's run stopped after its first part, as a shared library run leaves it
+        extract_in_parts(rules_model_file, book, out / "book.jsonl", input_format="text", doc_name="book",
+                         on_progress=stop)
+    assert len(book_parts(book, "text")) > 1
+    summary = extract_library(rules_model_file, [library], out, resume=True)
+    assert [r.status for r in summary.results] == [DONE, SKIPPED]
+    assert summary.results[0].resumed > 0
+    assert library_files(out) == library_files(tmp_path / "whole")
+    assert [r.sentences + r.resumed for r in summary.results[:1]] == [expected.results[0].sentences]
+
+
+def test_a_cut_book_fails_with_its_first_failed_part_and_keeps_its_parts(tmp_path):
+    from trainer.models.book_parts import book_results, part_books
+    from trainer.models.library import DONE, FAILED, Book, BookResult
+
+    whole = Book(tmp_path / "a.txt", tmp_path / "out" / "a.jsonl", "text")
+    small = Book(tmp_path / "b.txt", tmp_path / "out" / "b.jsonl", "text")
+    tasks = part_books(whole, [Part(0, 10), Part(10, 20), Part(20)])
+    parts_folder(whole.target).mkdir(parents=True)
+    runs = [BookResult(tasks[2], DONE, sentences=3), BookResult(small, DONE, sentences=1),
+            BookResult(tasks[1], FAILED, error="a.txt: the worker process extracting it ended abruptly"),
+            BookResult(tasks[0], FAILED, error="a.txt: second error")]
+    results = list(book_results([(whole, tasks), (small, [small])], runs))
+    assert [(r.book, r.status, r.error) for r in results] == [
+        (small, DONE, None), (whole, FAILED, "a.txt: second error")]  # the first part's error, in part order
+    assert parts_folder(whole.target).is_dir()

@@ -22,10 +22,10 @@ from __future__ import annotations
 import json
 import shutil
 from pathlib import Path
-from typing import Sequence
+from typing import Iterable, Iterator, Sequence
 
 from trainer.corpus.jsonl import not_utf8
-from trainer.errors import OutputError, WorkerLostError
+from trainer.errors import ItinerantError, OutputError, WorkerLostError
 from trainer.models.apply import ExtractionSummary, Progress, input_note, input_note_path, partial_path
 from trainer.models.library import DONE, FAILED, Book, BookResult, Part, extract_part, run_books
 from trainer.outputs import WRITE_ERRNOS, output_lock, publish, write_failed, write_text
@@ -99,8 +99,8 @@ def extract_in_parts(
         if folder.is_dir() and not resume:
             shutil.rmtree(folder)  # an earlier interrupted run's parts
         parts = list(parts) if parts is not None else book_parts(source, input_format)
-        books = [Book(source, folder / f"part-{n:05d}.jsonl", input_format, doc_name, part)
-                 for n, part in enumerate(parts, start=1)]
+        whole = Book(source, target, input_format, doc_name)
+        books = part_books(whole, parts)
         try:
             folder.mkdir(exist_ok=True)
         except OSError as exc:
@@ -112,10 +112,92 @@ def extract_in_parts(
             if not any(folder.iterdir()):  # nothing was begun (no cluster, say): leave no empty folder behind
                 folder.rmdir()
             raise
-        summary = _join(books, results, target, doc_name if input_format == "text" else None)
-        write_text(input_note_path(target), json.dumps(input_note(source, input_format, doc_name), sort_keys=True) + "\n")
-        shutil.rmtree(folder)
+        return join_parts(whole, books, results)
+
+
+def part_books(book: Book, parts: Sequence[Part]) -> list[Book]:
+    """One task per part of ``book``, each written to its own file in the book's parts folder."""
+    folder = parts_folder(book.target)
+    return [Book(book.source, folder / f"part-{n:05d}.jsonl", book.input_format, book.doc_name, part)
+            for n, part in enumerate(parts, start=1)]
+
+
+def join_parts(book: Book, parts: Sequence[Book], results: dict[Path, BookResult]) -> ExtractionSummary:
+    """Join the finished parts into the book's output, write its side file and remove the parts folder."""
+    summary = _join(parts, results, book.target, book.doc_name if book.input_format == "text" else None)
+    note = input_note(book.source, book.input_format, book.doc_name)
+    write_text(input_note_path(book.target), json.dumps(note, sort_keys=True) + "\n")
+    shutil.rmtree(parts_folder(book.target))
     return summary
+
+
+LIBRARY_CUT_BYTES = 2 * PART_CHARS  # a book of a library is cut into parts only above this size
+
+
+def library_tasks(books: Sequence[Book], *, jobs: int, scheduler: str | None,
+                  resume: bool) -> list[tuple[Book, list[Book]]]:
+    """Each book of a library with the tasks that extract it: the book itself, or its parts.
+
+    A book is cut (:func:`book_parts`) when several workers or a cluster share
+    the library and it is larger than :data:`LIBRARY_CUT_BYTES`, so a few long
+    books keep many workers busy; with ``resume``, as its interrupted run began
+    (:func:`shares_the_book`). A book that cannot be cut (unreadable, not
+    UTF-8) stays whole, and its own task reports why.
+    """
+    plan = []
+    for book in books:
+        tasks = [book]
+        if shares_the_book(book.target, jobs=jobs, scheduler=scheduler, resume=resume) and (
+                parts_folder(book.target).is_dir() or _size(book.source) > LIBRARY_CUT_BYTES):
+            try:
+                parts = book_parts(book.source, book.input_format)
+            except (ItinerantError, OSError):
+                parts = []
+            if len(parts) > 1:
+                tasks = part_books(book, parts)
+        if tasks == [book] and not resume:
+            remove_parts(book.target)
+        plan.append((book, tasks))
+    return plan
+
+
+def _size(source: Path) -> int:
+    try:
+        return source.stat().st_size
+    except OSError:
+        return 0
+
+
+def book_results(plan: Sequence[tuple[Book, list[Book]]], runs: Iterable[BookResult]) -> Iterator[BookResult]:
+    """Each book's result as it finishes, from the results of its tasks: a cut book when its last part is done.
+
+    The parts are joined then (:func:`join_parts`); a book one of whose parts
+    failed fails with that part's error and keeps its parts for ``resume``.
+    """
+    owner = {task.target: (book, tasks) for book, tasks in plan for task in tasks}
+    finished: dict[Path, dict[Path, BookResult]] = {}
+    for result in runs:
+        book, tasks = owner[result.book.target]
+        if tasks == [book]:
+            yield result
+            continue
+        got = finished.setdefault(book.target, {})
+        got[result.book.target] = result
+        if len(got) == len(tasks):
+            yield _joined(book, tasks, got)
+
+
+def _joined(book: Book, tasks: Sequence[Book], results: dict[Path, BookResult]) -> BookResult:
+    failed = [results[task.target] for task in tasks if results[task.target].status == FAILED]
+    if failed:
+        return BookResult(book, FAILED, error=failed[0].error)
+    try:
+        summary = join_parts(book, tasks, results)
+    except ItinerantError as exc:
+        return BookResult(book, FAILED, error=str(exc))
+    return BookResult(book, DONE, sentences=summary.sentences, events=summary.events, roles=summary.roles,
+                      words=sum(r.words for r in results.values()), resumed=summary.resumed,
+                      skipped=list(summary.skipped))
 
 
 def _run_parts(model_path: Path, books: Sequence[Book], jobs: int, scheduler: str | None, resume: bool,

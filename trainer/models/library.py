@@ -5,8 +5,9 @@ Each book is extracted by :func:`trainer.models.apply.extract_file` into
 so the files do not depend on how the books were shared out: one after the
 other here, over local worker processes (``jobs``), or as one task per book on
 a Dask cluster (``scheduler``; the workers must see the same paths, e.g. on a
-shared disk). Each worker loads the model file itself, checked against its
-digest, once per process.
+shared disk). When workers share the library, a long book is cut into parts,
+one task each, joined when the last is done (:mod:`trainer.models.book_parts`).
+Each worker loads the model file itself, checked against its digest, once per process.
 
 A book that cannot be extracted (unreadable, not UTF-8, bad records) is
 reported with its error and counted; the others go on. With ``resume``, a
@@ -344,6 +345,7 @@ def extract_library(
     table (.csv or .tsv) of the events of every book extracted, in book order.
     ``on_book`` hears of each book as it finishes, with the run's :class:`LibraryProgress`.
     """
+    from trainer.models.book_parts import book_results, library_tasks
     from trainer.models.persist import digest_path, read_metadata
 
     started = time.perf_counter()
@@ -373,7 +375,9 @@ def extract_library(
     options = {"resume": resume, "batch_size": batch_size, "skip_bad": skip_bad}
     model = str(model_path.absolute())
     with output_lock(folder):
-        runs = run_books(extract_book, model, books, options, jobs=jobs, scheduler=scheduler)
+        plan = library_tasks(books, jobs=jobs, scheduler=scheduler, resume=resume)
+        runs = book_results(plan, run_books(extract_book, model, [task for _, tasks in plan for task in tasks],
+                                            options, jobs=jobs, scheduler=scheduler))
         by_target: dict[Path, BookResult] = {}
         sizes = {book.target: _size(book.source) for book in books}
         progress = LibraryProgress(len(books), sum(sizes.values()))
