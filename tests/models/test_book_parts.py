@@ -312,3 +312,10 @@ def test_a_cut_book_fails_with_its_first_failed_part_and_keeps_its_parts(tmp_pat
     assert [(r.book, r.status, r.error) for r in results] == [
         (small, DONE, None), (whole, FAILED, "a.txt: second error")]  # the first part's error, in part order
     assert parts_folder(whole.target).is_dir()
+    # every part done, but a part's file gone before the join: the book fails, the run goes on
+    gone = part_books(Book(tmp_path / "c.txt", tmp_path / "out" / "c.jsonl", "text"), [Part(0, 10), Part(10)])
+    [result] = book_results([(Book(tmp_path / "c.txt", tmp_path / "out" / "c.jsonl", "text"), gone)],
+                            [BookResult(task, DONE, sentences=1) for task in gone])
+    assert result.status == FAILED and result.error.startswith(f"{tmp_path / 'out' / 'c.jsonl'}: its parts could not "
+                                                               "be joined (No such file or directory)")
+    assert "--resume" in result.error and not partial_path(tmp_path / "out" / "c.jsonl").exists()

@@ -27,7 +27,7 @@ from typing import Iterable, Iterator, Sequence
 from trainer.corpus.jsonl import not_utf8
 from trainer.errors import ItinerantError, OutputError, WorkerLostError
 from trainer.models.apply import ExtractionSummary, Progress, input_note, input_note_path, partial_path
-from trainer.models.library import DONE, FAILED, Book, BookResult, Part, extract_part, run_books
+from trainer.models.library import DONE, FAILED, Book, BookResult, Part, book_size, extract_part, run_books
 from trainer.outputs import WRITE_ERRNOS, output_lock, publish, write_failed, write_text
 from trainer.parsing.text import iter_paragraphs, sentence_id
 
@@ -148,7 +148,7 @@ def library_tasks(books: Sequence[Book], *, jobs: int, scheduler: str | None,
     for book in books:
         tasks = [book]
         if shares_the_book(book.target, jobs=jobs, scheduler=scheduler, resume=resume) and (
-                parts_folder(book.target).is_dir() or _size(book.source) > LIBRARY_CUT_BYTES):
+                parts_folder(book.target).is_dir() or book_size(book.source) > LIBRARY_CUT_BYTES):
             try:
                 parts = book_parts(book.source, book.input_format)
             except (ItinerantError, OSError):
@@ -159,13 +159,6 @@ def library_tasks(books: Sequence[Book], *, jobs: int, scheduler: str | None,
             remove_parts(book.target)
         plan.append((book, tasks))
     return plan
-
-
-def _size(source: Path) -> int:
-    try:
-        return source.stat().st_size
-    except OSError:
-        return 0
 
 
 def book_results(plan: Sequence[tuple[Book, list[Book]]], runs: Iterable[BookResult]) -> Iterator[BookResult]:
@@ -243,9 +236,11 @@ def _join(books: Sequence[Book], results: dict[Path, BookResult], target: Path,
                     summary.resumed += written
             publish(out, partial, target)
     except OSError as exc:
-        if exc.errno not in WRITE_ERRNOS:
-            raise
-        raise write_failed(target, exc) from None
+        partial.unlink(missing_ok=True)  # a torn join is of no use; the parts are kept
+        if exc.errno in WRITE_ERRNOS:
+            raise write_failed(target, exc) from None
+        raise OutputError(f"{target}: its parts could not be joined ({exc.strerror or exc})",
+                          "run the same command with --resume: a part whose file is gone is extracted again") from None
     return summary
 
 

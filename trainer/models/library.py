@@ -167,7 +167,7 @@ def find_books(inputs: Sequence[Path], folder: Path, *, input_format: str | None
     return list(books.values())
 
 
-def _size(source: Path) -> int:
+def book_size(source: Path) -> int:
     """A book's size in bytes (0 if it cannot be read; its extraction then reports why)."""
     try:
         return source.stat().st_size
@@ -379,7 +379,7 @@ def extract_library(
         runs = book_results(plan, run_books(extract_book, model, [task for _, tasks in plan for task in tasks],
                                             options, jobs=jobs, scheduler=scheduler))
         by_target: dict[Path, BookResult] = {}
-        sizes = {book.target: _size(book.source) for book in books}
+        sizes = {book.target: book_size(book.source) for book in books}
         progress = LibraryProgress(len(books), sum(sizes.values()))
         for result in runs:
             by_target[result.book.target] = result
