@@ -303,7 +303,7 @@ def extract(
     input_format: Annotated[Optional[str], typer.Option("--input-format", help="text or jsonl (default: by extension).")] = None,
     doc: Annotated[Optional[str], typer.Option(help="Document name for plain text (default: the file name).")] = None,
     batch_size: Annotated[int, typer.Option(help="Sentences per batch.")] = 256,
-    resume: Annotated[bool, typer.Option(help="Continue an interrupted run from OUTPUT.partial (or OUTPUT) after checking the input is the same; for a library, skip finished books and continue a torn one.")] = False,
+    resume: Annotated[bool, typer.Option(help="Continue an interrupted run from OUTPUT.partial (or OUTPUT, or the parts in OUTPUT.parts/ of a shared run) after checking the input is the same; for a library, skip finished books and continue torn ones.")] = False,
     skip_bad: Annotated[bool, typer.Option(help="JSONL input: leave out records with errors (listed).")] = False,
     progress: Annotated[Optional[bool], typer.Option(help="Show a progress bar (default: when stderr is a terminal).")] = None,
     compare: Annotated[bool, typer.Option(help="JSONL input with events: score the predictions against them.")] = False,
