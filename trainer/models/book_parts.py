@@ -96,20 +96,15 @@ def extract_in_parts(
     source, target = Path(source), Path(target)
     folder = parts_folder(target)
     with output_lock(target):
-        if folder.is_dir() and not resume:
-            shutil.rmtree(folder)  # an earlier interrupted run's parts
+        if not resume:
+            remove_parts(target)  # an earlier interrupted run's parts
         parts = list(parts) if parts is not None else book_parts(source, input_format)
         whole = Book(source, target, input_format, doc_name)
         books = part_books(whole, parts)
-        try:
-            folder.mkdir(exist_ok=True)
-        except OSError as exc:
-            raise OutputError(f"{folder}: cannot be made for the parts of the book ({exc.strerror or exc})",
-                              "write the output where the folder can be made, or use --jobs 1") from None
-        try:
+        try:  # each part's run makes the folder when it locks its file
             results = _run_parts(model_path, books, jobs, scheduler, resume, batch_size, skip_bad, on_progress)
         except BaseException:
-            if not any(folder.iterdir()):  # nothing was begun (no cluster, say): leave no empty folder behind
+            if folder.is_dir() and not any(folder.iterdir()):  # nothing was kept: leave no empty folder behind
                 folder.rmdir()
             raise
         return join_parts(whole, books, results)
